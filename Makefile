@@ -1,0 +1,29 @@
+# corepace: two commands for a newcomer, `make demo` and `make test`.
+PYTHON ?= python3
+VENV   := .venv
+PY     := $(VENV)/bin/python
+STAMP  := $(VENV)/.installed
+
+.PHONY: demo test lint bench sample clean
+
+$(STAMP): pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e ".[test,sweep]"
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(PY) -m optimizer.demo --out reports/demo
+
+test: $(STAMP)
+	$(PY) -m pytest -q
+
+lint: $(STAMP)
+	$(VENV)/bin/ruff check thermal optimizer tests
+	$(VENV)/bin/ruff format --check thermal optimizer tests
+
+bench: $(STAMP)
+	for f in tests/bench/bench_*.py; do $(PY) $$f || exit 1; done
+
+clean:
+	rm -rf $(VENV) .pytest_cache build *.egg-info
