@@ -1,0 +1,197 @@
+"""Running many independent plan evaluations: serially, in a local process
+pool, or on a Dask distributed cluster, with resume after an interruption.
+
+Every point is evaluated by a top-level function ``func(point) -> dict``
+that builds its own model from scenario data inside the worker (PuLP problems
+do not travel between processes). Results are returned in point order
+whatever order the workers finish in, so serial, pool and cluster runs give
+identical tables. When ``done_dir`` is given, each finished point is written
+there at once (atomically) and a rerun skips points already done.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import itertools
+import json
+import os
+import tempfile
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass
+from enum import StrEnum
+from multiprocessing import get_context
+from pathlib import Path
+from typing import Any
+
+from optimizer.overrides import Change
+
+PointFunc = Callable[["SweepPoint"], dict[str, Any]]
+
+
+class ExecMode(StrEnum):
+    """Where sweep points run."""
+
+    SERIAL = "serial"
+    POOL = "pool"
+    CLUSTER = "cluster"
+
+
+@dataclass(frozen=True)
+class SweepPoint:
+    """One point of a sweep: a label and the changes applied to the base.
+
+    Attributes
+    ----------
+    index : int
+        Position in the sweep (results keep this order).
+    label : str
+        Readable name, e.g. ``"tunnels.main.length=24 m"``.
+    changes : tuple of Change
+        Changes applied to the base scenario for this point.
+    context : tuple of (str, Any)
+        Data every point needs (base scenario path, options), hashable.
+    """
+
+    index: int
+    label: str
+    changes: tuple[Change, ...]
+    context: tuple[tuple[str, Any], ...] = ()
+
+    def key(self) -> str:
+        """Stable hash of everything that decides this point's result."""
+        payload = json.dumps(
+            {
+                "changes": [(c.path, c.value) for c in self.changes],
+                "context": [list(kv) for kv in self.context],
+            },
+            sort_keys=True,
+            default=str,
+        )
+        return hashlib.sha256(payload.encode()).hexdigest()[:16]
+
+
+def grid_points(
+    axes: Mapping[str, Sequence[Any]], context: Mapping[str, Any] | None = None
+) -> list[SweepPoint]:
+    """Cartesian product of value lists per dotted path, in a stable order.
+
+    The first axis varies slowest. An empty mapping gives one point, the base.
+    """
+    ctx = tuple(sorted((context or {}).items()))
+    paths = list(axes)
+    points = []
+    for i, values in enumerate(itertools.product(*(axes[p] for p in paths))):
+        changes = tuple(Change(p, v) for p, v in zip(paths, values, strict=True))
+        label = ", ".join(f"{c.path}={c.value}" for c in changes) or "base"
+        points.append(SweepPoint(index=i, label=label, changes=changes, context=ctx))
+    return points
+
+
+def _done_path(done_dir: Path, point: SweepPoint) -> Path:
+    return done_dir / f"{point.index:05d}-{point.key()}.json"
+
+
+def _write_atomic(path: Path, row: Mapping[str, Any]) -> None:
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=".json")
+    with os.fdopen(fd, "w", encoding="utf-8") as fh:
+        json.dump(row, fh, sort_keys=True, default=str)
+    os.replace(tmp, path)
+
+
+def _load_done(done_dir: Path, points: Iterable[SweepPoint]) -> dict[int, dict[str, Any]]:
+    done = {}
+    for p in points:
+        f = _done_path(done_dir, p)
+        if f.exists():
+            done[p.index] = json.loads(f.read_text(encoding="utf-8"))
+    return done
+
+
+def run_points(
+    points: Sequence[SweepPoint],
+    func: PointFunc,
+    *,
+    mode: ExecMode | str = ExecMode.POOL,
+    workers: int | None = None,
+    cluster: str | Any | None = None,
+    done_dir: str | Path | None = None,
+    on_done: Callable[[int, int], None] | None = None,
+) -> list[dict[str, Any]]:
+    """Evaluate ``func`` at every point and return the rows in point order.
+
+    Parameters
+    ----------
+    points : sequence of SweepPoint
+        Points to evaluate.
+    func : callable
+        Top-level (picklable) function of one point returning a JSON-able dict.
+    mode : ExecMode or str
+        ``"serial"``, ``"pool"`` (local processes) or ``"cluster"`` (Dask).
+    workers : int, optional
+        Pool size; default the number of CPUs.
+    cluster : str or distributed.Client, optional
+        Scheduler address (``"tcp://host:8786"``) or a Client, for ``"cluster"``.
+    done_dir : str or Path, optional
+        Folder keeping one JSON file per finished point; points found there
+        (same index and same key) are not evaluated again.
+    on_done : callable, optional
+        Called as ``on_done(finished, total)`` after each point (progress).
+    """
+    mode = ExecMode(mode)
+    folder = Path(done_dir) if done_dir is not None else None
+    results: dict[int, dict[str, Any]] = {}
+    if folder is not None:
+        folder.mkdir(parents=True, exist_ok=True)
+        results.update(_load_done(folder, points))
+    todo = [p for p in points if p.index not in results]
+    total = len(points)
+
+    def finish(point: SweepPoint, row: dict[str, Any]) -> None:
+        results[point.index] = row
+        if folder is not None:
+            _write_atomic(_done_path(folder, point), row)
+        if on_done is not None:
+            on_done(len(results), total)
+
+    if mode is ExecMode.SERIAL or not todo:
+        for p in todo:
+            finish(p, func(p))
+    elif mode is ExecMode.POOL:
+        ctx = get_context("spawn")
+        with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
+            futures = {pool.submit(func, p): p for p in todo}
+            for fut in as_completed(futures):
+                finish(futures[fut], fut.result())
+    else:
+        _run_on_cluster(todo, func, cluster, finish)
+    return [results[p.index] for p in points]
+
+
+def _run_on_cluster(
+    todo: Sequence[SweepPoint],
+    func: PointFunc,
+    cluster: str | Any | None,
+    finish: Callable[[SweepPoint, dict[str, Any]], None],
+) -> None:
+    if cluster is None:
+        raise ValueError(
+            "cluster: give a scheduler address such as tcp://host:8786 for mode 'cluster'"
+        )
+    try:
+        from distributed import Client
+        from distributed import as_completed as dask_completed
+    except ImportError:
+        raise ValueError(
+            "cluster: dask.distributed is not installed; install the 'sweep' extra"
+        ) from None
+    own = isinstance(cluster, str)
+    client = Client(cluster) if own else cluster
+    try:
+        futures = client.map(func, list(todo), pure=False)
+        by_key = {f.key: p for f, p in zip(futures, todo, strict=True)}
+        for fut in dask_completed(futures):
+            finish(by_key[fut.key], fut.result())
+    finally:
+        if own:
+            client.close()
