@@ -1,0 +1,789 @@
+"""Self-contained HTML reports with embedded plots.
+
+A report is one HTML file with no external assets: the style sheet is inline
+and every plot is a PNG embedded as a ``data:`` URI, so the file can be
+mailed, opened on a phone or printed as it is. The page uses a single
+responsive column (tables scroll sideways on narrow screens) and a print
+style sheet that keeps tables and plots whole on a page.
+
+Tables carry their exact values: each cell shows a rounded, readable number
+and keeps the full-precision value in a ``data-value`` attribute, and each
+table has a ``data-table`` name equal to the name of the CSV file exported
+beside the report. A reader (or a test) can therefore check every figure in
+the report against the exported tables.
+
+Building blocks
+---------------
+:class:`HtmlReport`
+    Ordered sections of headings, paragraphs, key-value lists, tables,
+    figures and notes, rendered to one HTML string.
+:func:`temperature_figure`
+    Core and surface temperature against time through oven and tunnel, with
+    stage boundaries, rule targets and time windows drawn.
+:func:`timeline_figure`
+    Bars per machine over a shift (batches on ovens, runs on tunnels).
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+
+__all__ = [
+    "CurveSet",
+    "HtmlReport",
+    "RuleMark",
+    "Stage",
+    "TimelineBar",
+    "figure_png",
+    "format_cell",
+    "temperature_figure",
+    "timeline_figure",
+]
+
+# Our own plain palette: dark ink, one blue-green accent, warm for hot, cool for cold.
+INK = "#22262a"
+MUTED = "#5f6870"
+ACCENT = "#1d6a72"
+CORE_COLOUR = "#9c2f1c"
+SURFACE_COLOUR = "#d08a25"
+AIR_COLOUR = "#8a96a0"
+RULE_COLOUR = "#2d5f9a"
+BAR_COLOURS = (
+    "#1d6a72",
+    "#b5651d",
+    "#5b7f2a",
+    "#7a4f8f",
+    "#a33b4f",
+    "#3f6fb0",
+    "#8c7a2b",
+    "#4b8c7c",
+    "#6e5a48",
+    "#9a6fb5",
+)
+
+_CSS = """
+:root { --ink: #22262a; --muted: #5f6870; --accent: #1d6a72; --line: #d5d9dc;
+        --soft: #f3f5f6; --warn: #8a4b00; --warnbg: #fff6e5; }
+* { box-sizing: border-box; }
+html { -webkit-text-size-adjust: 100%; }
+body { margin: 0; color: var(--ink); background: #fff;
+       font: 15px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, Arial, sans-serif; }
+main { max-width: 62rem; margin: 0 auto; padding: 1rem 1rem 3rem; }
+header.top { border-bottom: 3px solid var(--accent); margin-bottom: 1rem; }
+h1 { font-size: 1.55rem; margin: .4rem 0 .2rem; }
+h2 { font-size: 1.25rem; margin: 2rem 0 .5rem; padding-bottom: .2rem;
+     border-bottom: 1px solid var(--line); }
+h3 { font-size: 1.05rem; margin: 1.4rem 0 .4rem; }
+p { margin: .4rem 0 .7rem; }
+.sub { color: var(--muted); margin: 0 0 .6rem; }
+nav.toc ol { margin: .2rem 0 1rem; padding-left: 1.3rem; columns: 2 14rem; }
+.scroll { overflow-x: auto; margin: .4rem 0 1rem; }
+table { border-collapse: collapse; font-size: .9rem; min-width: 50%; }
+caption { text-align: left; font-weight: 600; padding: .2rem 0 .35rem; }
+th, td { padding: .28rem .55rem; border-bottom: 1px solid var(--line);
+         text-align: left; vertical-align: top; }
+th { background: var(--soft); font-weight: 600; white-space: nowrap; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+tr.empty td { color: var(--muted); font-style: italic; }
+dl.kv { display: grid; grid-template-columns: max-content 1fr; gap: .2rem 1rem;
+        margin: .4rem 0 1rem; }
+dl.kv dt { color: var(--muted); }
+dl.kv dd { margin: 0; font-weight: 600; }
+figure { margin: .6rem 0 1.4rem; }
+figure img { max-width: 100%; height: auto; border: 1px solid var(--line); }
+figcaption { color: var(--muted); font-size: .88rem; margin-top: .25rem; }
+.note { border-left: 4px solid var(--accent); background: var(--soft); padding: .6rem .8rem;
+        margin: .6rem 0 1rem; }
+.caution { border: 2px solid var(--warn); background: var(--warnbg); padding: .7rem .9rem;
+           margin: .8rem 0 1.2rem; }
+.caution h2 { border: 0; margin-top: 0; color: var(--warn); }
+.caution ul { margin: .2rem 0; padding-left: 1.2rem; }
+footer { color: var(--muted); font-size: .85rem; border-top: 1px solid var(--line);
+         margin-top: 2rem; padding-top: .6rem; word-break: break-all; }
+code { font-size: .88em; }
+@media (max-width: 40rem) {
+  body { font-size: 14px; }
+  main { padding: .6rem .6rem 2rem; }
+  dl.kv { grid-template-columns: 1fr; }
+  dl.kv dd { margin-bottom: .3rem; }
+}
+@media print {
+  body { font-size: 10.5pt; }
+  main { max-width: none; padding: 0; }
+  nav.toc { display: none; }
+  .scroll { overflow: visible; }
+  table, figure, .caution, .note { break-inside: avoid; page-break-inside: avoid; }
+  h2, h3 { break-after: avoid; page-break-after: avoid; }
+  h2.newpage { break-before: page; page-break-before: always; }
+  figure img { border: 0; }
+  a { color: inherit; text-decoration: none; }
+}
+"""
+
+
+# ---------------------------------------------------------------------------
+# Cell formatting
+# ---------------------------------------------------------------------------
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, int | float | np.integer | np.floating) and not isinstance(
+        value, bool | np.bool_
+    )
+
+
+def _is_missing(value: Any) -> bool:
+    if value is None or value is pd.NA or value is pd.NaT:
+        return True
+    return isinstance(value, float | np.floating) and math.isnan(float(value))
+
+
+def _column_decimals(values: pd.Series) -> int:
+    """Decimals to show for a float column: fewer for large magnitudes."""
+    numbers = pd.to_numeric(values, errors="coerce").astype(float)
+    finite = numbers[np.isfinite(numbers)]
+    if finite.empty:
+        return 1
+    if np.allclose(finite, np.round(finite)):
+        return 0
+    peak = float(np.max(np.abs(finite)))
+    if peak >= 1000:
+        return 0
+    if peak >= 10:
+        return 1
+    if peak >= 0.1:
+        return 2
+    return 4
+
+
+def format_cell(value: Any, decimals: int = 2) -> str:
+    """Readable text for one table cell.
+
+    Parameters
+    ----------
+    value : Any
+        Cell value.
+    decimals : int
+        Decimals for floats.
+
+    Returns
+    -------
+    str
+        ``"–"`` for missing values, ``"yes"``/``"no"`` for booleans, numbers
+        with thousands separators, everything else as ``str``.
+    """
+    if _is_missing(value):
+        return "–"
+    if isinstance(value, bool | np.bool_):
+        return "yes" if value else "no"
+    if isinstance(value, int | np.integer):
+        return f"{int(value):,}"
+    if isinstance(value, float | np.floating):
+        number = float(value)
+        if math.isinf(number):
+            return "∞" if number > 0 else "−∞"
+        return f"{number:,.{decimals}f}"
+    return str(value)
+
+
+def _exact(value: Any) -> str:
+    """Full-precision text of a cell for the ``data-value`` attribute."""
+    if _is_missing(value):
+        return ""
+    if isinstance(value, bool | np.bool_):
+        return "true" if value else "false"
+    if isinstance(value, int | np.integer):
+        return str(int(value))
+    if isinstance(value, float | np.floating):
+        return repr(float(value))
+    return str(value)
+
+
+# ---------------------------------------------------------------------------
+# Figures
+# ---------------------------------------------------------------------------
+
+
+def figure_png(fig: Figure, dpi: int = 130) -> bytes:
+    """Render a matplotlib figure to PNG bytes.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        Figure built without pyplot (no global state, no display needed).
+    dpi : int
+        Resolution [dots per inch].
+
+    Returns
+    -------
+    bytes
+        The PNG file.
+    """
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=dpi, bbox_inches="tight", facecolor="white")
+    return buffer.getvalue()
+
+
+def _style_axes(ax: Any) -> None:
+    ax.spines["top"].set_visible(False)
+    ax.spines["right"].set_visible(False)
+    for side in ("left", "bottom"):
+        ax.spines[side].set_color(MUTED)
+    ax.tick_params(colors=INK, labelsize=8.5)
+    ax.grid(True, color="#e3e6e8", linewidth=0.7)
+    ax.set_axisbelow(True)
+
+
+@dataclass(frozen=True)
+class Stage:
+    """A stretch of a temperature history (oven, transfer, a tunnel zone).
+
+    Parameters
+    ----------
+    name : str
+        Label drawn above the stretch.
+    start : float
+        Start time [min].
+    end : float
+        End time [min].
+    air_temperature : float or None
+        Air temperature in the stage [°C], drawn as a thin line when given.
+    """
+
+    name: str
+    start: float
+    end: float
+    air_temperature: float | None = None
+
+
+@dataclass(frozen=True)
+class RuleMark:
+    """A rule drawn on a temperature plot: a target temperature, and a window.
+
+    Parameters
+    ----------
+    label : str
+        Text of the rule, e.g. ``"core ≥ 72 °C"`` or ``"core ≤ 21 °C within 120 min"``.
+    temperature : float
+        Target temperature [°C], drawn as a dashed horizontal line.
+    start : float or None
+        Time from which the rule's clock runs [min] (None: from the start).
+    deadline : float or None
+        Time by which the target must be met [min]; drawn as a vertical line
+        and the window shaded.
+    met_at : float or None
+        Time the model reaches the target [min], marked with a point.
+    """
+
+    label: str
+    temperature: float
+    start: float | None = None
+    deadline: float | None = None
+    met_at: float | None = None
+
+
+@dataclass(frozen=True)
+class CurveSet:
+    """Temperature histories of one product through oven and tunnel.
+
+    Parameters
+    ----------
+    title : str
+        Figure title (product, oven setting, tunnel setting).
+    time_min : sequence of float
+        Times [min] from oven loading.
+    core : sequence of float
+        Core (slowest point) temperature [°C] at those times.
+    surface : sequence of float
+        Surface temperature [°C] at those times.
+    stages : sequence of Stage
+        Stage boundaries to draw.
+    rules : sequence of RuleMark
+        Targets and windows to draw.
+    mean : sequence of float or None
+        Mass-mean temperature [°C], drawn thin when given.
+    """
+
+    title: str
+    time_min: Sequence[float]
+    core: Sequence[float]
+    surface: Sequence[float]
+    stages: Sequence[Stage] = ()
+    rules: Sequence[RuleMark] = ()
+    mean: Sequence[float] | None = None
+
+
+def temperature_figure(curves: CurveSet) -> Figure:
+    """Core and surface temperature against time, with stages and rules drawn.
+
+    Parameters
+    ----------
+    curves : CurveSet
+        Histories, stage boundaries and rule marks.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The plot (not yet rendered).
+    """
+    fig = Figure(figsize=(7.4, 3.6))
+    ax = fig.add_subplot(1, 1, 1)
+    _style_axes(ax)
+    t = np.asarray(curves.time_min, dtype=float)
+    core = np.asarray(curves.core, dtype=float)
+    surface = np.asarray(curves.surface, dtype=float)
+    air_labelled = False
+    for i, stage in enumerate(curves.stages):
+        if i % 2 == 1:
+            ax.axvspan(stage.start, stage.end, color="#f1f3f4", zorder=0, linewidth=0)
+        if stage.air_temperature is not None:
+            ax.plot(
+                [stage.start, stage.end],
+                [stage.air_temperature] * 2,
+                color=AIR_COLOUR,
+                linewidth=1.0,
+                linestyle=(0, (1, 1.5)),
+                zorder=1,
+                label=None if air_labelled else "air",
+            )
+            air_labelled = True
+        if i > 0:
+            ax.axvline(stage.start, color="#b9c0c5", linewidth=0.8, zorder=1)
+    ax.plot(t, surface, color=SURFACE_COLOUR, linewidth=1.6, label="surface", zorder=3)
+    if curves.mean is not None:
+        ax.plot(
+            t,
+            np.asarray(curves.mean, dtype=float),
+            color=MUTED,
+            linewidth=1.0,
+            label="mass mean",
+            zorder=3,
+        )
+    ax.plot(t, core, color=CORE_COLOUR, linewidth=2.2, label="core", zorder=4)
+    t_end = float(t[-1]) if t.size else 1.0
+    deadlines = [r.deadline for r in curves.rules if r.deadline is not None]
+    t_end = max([t_end, *deadlines])
+    for rule in curves.rules:
+        x0 = rule.start if rule.start is not None else (float(t[0]) if t.size else 0.0)
+        x1 = rule.deadline if rule.deadline is not None else t_end
+        ax.plot(
+            [x0, x1],
+            [rule.temperature] * 2,
+            color=RULE_COLOUR,
+            linewidth=1.2,
+            linestyle="--",
+            zorder=2,
+        )
+        if rule.deadline is not None:
+            ax.axvline(rule.deadline, color=RULE_COLOUR, linewidth=1.0, linestyle=":", zorder=2)
+            ax.axvspan(x0, rule.deadline, color=RULE_COLOUR, alpha=0.05, zorder=0, linewidth=0)
+        if rule.met_at is not None and math.isfinite(rule.met_at):
+            ax.plot(
+                [rule.met_at], [rule.temperature], marker="o", color=RULE_COLOUR, ms=4, zorder=5
+            )
+        ax.annotate(
+            rule.label,
+            xy=(x1, rule.temperature),
+            xytext=(-3, 3),
+            textcoords="offset points",
+            ha="right",
+            va="bottom",
+            fontsize=7.5,
+            color=RULE_COLOUR,
+        )
+    ax.set_xlim(float(t[0]) if t.size else 0.0, t_end)
+    low, high = ax.get_ylim()
+    for stage in curves.stages:
+        ax.text(
+            (stage.start + stage.end) / 2,
+            high,
+            stage.name,
+            ha="center",
+            va="bottom",
+            fontsize=7.5,
+            color=MUTED,
+            clip_on=False,
+        )
+    ax.set_ylim(low, high)
+    ax.set_xlabel("time from oven loading [min]", fontsize=9, color=INK)
+    ax.set_ylabel("temperature [°C]", fontsize=9, color=INK)
+    ax.set_title(curves.title, fontsize=10, color=INK, loc="left", pad=16)
+    ax.legend(fontsize=8, frameon=False, loc="center right")
+    fig.tight_layout()
+    return fig
+
+
+@dataclass(frozen=True)
+class TimelineBar:
+    """One bar on a machine timeline.
+
+    Parameters
+    ----------
+    machine : str
+        Row the bar sits on (an oven or tunnel name).
+    start : float
+        Start [min from shift start].
+    end : float
+        End [min from shift start].
+    label : str
+        Short text drawn in the bar when it fits.
+    group : str
+        Colour group (e.g. the product or the air setting); bars of one group
+        share a colour.
+    kind : str
+        ``"work"`` (solid), ``"setup"`` (hatched: load, unload, changeover).
+    """
+
+    machine: str
+    start: float
+    end: float
+    label: str = ""
+    group: str = ""
+    kind: str = "work"
+
+
+def timeline_figure(
+    bars: Sequence[TimelineBar],
+    *,
+    title: str,
+    shift_minutes: float | None = None,
+    machines: Sequence[str] | None = None,
+) -> Figure:
+    """Gantt-like bars per machine over one shift.
+
+    Parameters
+    ----------
+    bars : sequence of TimelineBar
+        Bars to draw.
+    title : str
+        Figure title (the shift).
+    shift_minutes : float or None
+        Length of the shift [min], drawn as the right edge.
+    machines : sequence of str or None
+        Row order (top to bottom); default: order of first appearance.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The plot (not yet rendered).
+    """
+    rows = list(machines) if machines is not None else list(dict.fromkeys(b.machine for b in bars))
+    groups = list(dict.fromkeys(b.group for b in bars if b.group))
+    colour = {g: BAR_COLOURS[i % len(BAR_COLOURS)] for i, g in enumerate(groups)}
+    height = 0.9 + 0.55 * max(len(rows), 1)
+    fig = Figure(figsize=(7.4, height))
+    ax = fig.add_subplot(1, 1, 1)
+    _style_axes(ax)
+    ax.grid(True, axis="x", color="#e3e6e8", linewidth=0.7)
+    ax.grid(False, axis="y")
+    position = {m: len(rows) - 1 - i for i, m in enumerate(rows)}
+    span = max([b.end for b in bars] + [shift_minutes or 0.0, 1.0])
+    for bar in bars:
+        y = position.get(bar.machine)
+        if y is None:
+            continue
+        width = max(bar.end - bar.start, 0.0)
+        face = colour.get(bar.group, ACCENT)
+        if bar.kind == "setup":
+            ax.barh(
+                y,
+                width,
+                left=bar.start,
+                height=0.6,
+                color="white",
+                edgecolor=MUTED,
+                hatch="////",
+                linewidth=0.6,
+            )
+        else:
+            ax.barh(
+                y, width, left=bar.start, height=0.6, color=face, edgecolor="white", linewidth=0.8
+            )
+            if bar.label and width > span * 0.06:
+                ax.text(
+                    bar.start + width / 2,
+                    y,
+                    bar.label,
+                    ha="center",
+                    va="center",
+                    fontsize=7,
+                    color="white",
+                    clip_on=True,
+                )
+    if shift_minutes:
+        ax.axvline(shift_minutes, color=INK, linewidth=1.0)
+    ax.set_yticks(range(len(rows)))
+    ax.set_yticklabels(list(reversed(rows)), fontsize=8.5)
+    ax.set_ylim(-0.6, len(rows) - 0.4)
+    ax.set_xlim(0, span * 1.01)
+    ax.set_xlabel("minutes from shift start", fontsize=9, color=INK)
+    ax.set_title(title, fontsize=10, color=INK, loc="left")
+    if groups:
+        from matplotlib.patches import Patch
+
+        handles = [Patch(color=colour[g], label=g) for g in groups]
+        if any(b.kind == "setup" for b in bars):
+            handles.append(
+                Patch(facecolor="white", edgecolor=MUTED, hatch="////", label="load/unload/change")
+            )
+        ax.legend(
+            handles=handles,
+            fontsize=7.5,
+            frameon=False,
+            loc="upper left",
+            bbox_to_anchor=(1.01, 1.0),
+        )
+    fig.tight_layout()
+    return fig
+
+
+# ---------------------------------------------------------------------------
+# The document
+# ---------------------------------------------------------------------------
+
+
+@dataclass
+class _Section:
+    title: str
+    anchor: str
+    parts: list[str] = field(default_factory=list)
+    newpage: bool = False
+
+
+class HtmlReport:
+    """An HTML report assembled section by section and rendered to one string.
+
+    Parameters
+    ----------
+    title : str
+        Page title and main heading.
+    subtitle : str
+        Line under the title (scenario, date).
+
+    Examples
+    --------
+    >>> report = HtmlReport("Shift plan", "demo plant")
+    >>> report.section("Summary")
+    >>> report.paragraph("Two ovens, one tunnel.")
+    >>> html_text = report.render()
+    """
+
+    def __init__(self, title: str, subtitle: str = "") -> None:
+        self.title = title
+        self.subtitle = subtitle
+        self._preface: list[str] = []
+        self._sections: list[_Section] = []
+        self._footer: list[tuple[str, str]] = []
+        self._anchors: set[str] = set()
+        self.figure_count = 0
+        self.table_names: list[str] = []
+
+    # -- structure ---------------------------------------------------------
+
+    def _anchor(self, text: str) -> str:
+        base = "".join(c if c.isalnum() else "-" for c in text.lower()).strip("-") or "s"
+        anchor, n = base, 2
+        while anchor in self._anchors:
+            anchor, n = f"{base}-{n}", n + 1
+        self._anchors.add(anchor)
+        return anchor
+
+    def section(self, title: str, *, newpage: bool = False) -> None:
+        """Start a new top-level section (listed in the contents).
+
+        Parameters
+        ----------
+        title : str
+            Section heading.
+        newpage : bool
+            Start the section on a new page when printed.
+        """
+        self._sections.append(_Section(title, self._anchor(title), newpage=newpage))
+
+    def _add(self, fragment: str) -> None:
+        if self._sections:
+            self._sections[-1].parts.append(fragment)
+        else:
+            self._preface.append(fragment)
+
+    def heading(self, text: str) -> None:
+        """Add a sub-heading inside the current section."""
+        self._add(f"<h3>{html.escape(text)}</h3>")
+
+    def paragraph(self, text: str, *, css_class: str | None = None) -> None:
+        """Add a paragraph of plain text (escaped)."""
+        cls = f' class="{css_class}"' if css_class else ""
+        self._add(f"<p{cls}>{html.escape(text)}</p>")
+
+    def note(self, text: str) -> None:
+        """Add a highlighted note (plain text, escaped)."""
+        self._add(f'<div class="note">{html.escape(text)}</div>')
+
+    def bullets(self, items: Iterable[str]) -> None:
+        """Add a bulleted list of plain-text items."""
+        lis = "".join(f"<li>{html.escape(i)}</li>" for i in items)
+        self._add(f"<ul>{lis}</ul>")
+
+    def caution(self, title: str, items: Iterable[str]) -> None:
+        """Add a boxed caution with a heading and a list of points."""
+        lis = "".join(f"<li>{html.escape(i)}</li>" for i in items)
+        anchor = self._anchor(title)
+        self._add(
+            f'<section class="caution" id="{anchor}"><h2>{html.escape(title)}</h2>'
+            f"<ul>{lis}</ul></section>"
+        )
+
+    def key_values(self, pairs: Iterable[tuple[str, Any]]) -> None:
+        """Add a two-column list of labels and values."""
+        rows = "".join(
+            f"<dt>{html.escape(str(k))}</dt><dd>{html.escape(format_cell(v))}</dd>"
+            for k, v in pairs
+        )
+        self._add(f'<dl class="kv">{rows}</dl>')
+
+    def footer(self, label: str, value: str) -> None:
+        """Add a line to the page footer (hash, version, time)."""
+        self._footer.append((label, value))
+
+    # -- tables ------------------------------------------------------------
+
+    def table(
+        self,
+        name: str,
+        table: pd.DataFrame,
+        *,
+        caption: str = "",
+        labels: Mapping[str, str] | None = None,
+        empty_text: str = "nothing planned",
+    ) -> None:
+        """Add a table; cells show rounded values and keep exact ones.
+
+        Parameters
+        ----------
+        name : str
+            Table name, written as ``data-table`` (the exported CSV's stem).
+        table : pandas.DataFrame
+            The table; its index is not shown unless named.
+        caption : str
+            Caption above the table.
+        labels : mapping of str to str, optional
+            Column name → header text (the column name is kept in
+            ``data-column``).
+        empty_text : str
+            Text of the single row shown when the table is empty.
+        """
+        frame = table.reset_index() if any(n is not None for n in table.index.names) else table
+        labels = labels or {}
+        columns = [str(c) for c in frame.columns]
+        numeric = {
+            c: pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(frame[c])
+            for c in frame.columns
+        }
+        decimals = {
+            c: _column_decimals(frame[c])
+            for c in frame.columns
+            if numeric[c] and pd.api.types.is_float_dtype(frame[c])
+        }
+        head = "".join(
+            f'<th data-column="{html.escape(col, quote=True)}"'
+            f"{' class=num' if numeric[c] else ''}>"
+            f"{html.escape(labels.get(col, col))}</th>"
+            for c, col in zip(frame.columns, columns, strict=True)
+        )
+        body_rows = []
+        for row in frame.itertuples(index=False, name=None):
+            cells = []
+            for c, value in zip(frame.columns, row, strict=True):
+                shown = format_cell(value, decimals.get(c, 2))
+                is_num = _is_number(value) and not _is_missing(value)
+                cls = ' class="num"' if is_num or numeric[c] else ""
+                cells.append(
+                    f'<td{cls} data-value="{html.escape(_exact(value), quote=True)}">'
+                    f"{html.escape(shown)}</td>"
+                )
+            body_rows.append("<tr>" + "".join(cells) + "</tr>")
+        if not body_rows:
+            body_rows.append(
+                f'<tr class="empty"><td colspan="{max(len(columns), 1)}">'
+                f"{html.escape(empty_text)}</td></tr>"
+            )
+        cap = f"<caption>{html.escape(caption)}</caption>" if caption else ""
+        self.table_names.append(name)
+        self._add(
+            f'<div class="scroll"><table data-table="{html.escape(name, quote=True)}">{cap}'
+            f"<thead><tr>{head}</tr></thead><tbody>{''.join(body_rows)}</tbody></table></div>"
+        )
+
+    # -- figures -----------------------------------------------------------
+
+    def figure(self, fig: Figure | bytes, *, caption: str, alt: str, name: str = "") -> None:
+        """Embed a plot as a PNG ``data:`` URI.
+
+        Parameters
+        ----------
+        fig : matplotlib.figure.Figure or bytes
+            Figure to render, or PNG bytes already rendered.
+        caption : str
+            Caption under the plot.
+        alt : str
+            Text alternative for screen readers and when images are off.
+        name : str
+            Identifier written as ``data-figure``.
+        """
+        png = fig if isinstance(fig, bytes) else figure_png(fig)
+        data = base64.b64encode(png).decode("ascii")
+        self.figure_count += 1
+        ident = html.escape(name or f"figure-{self.figure_count}", quote=True)
+        self._add(
+            f'<figure data-figure="{ident}"><img alt="{html.escape(alt, quote=True)}" '
+            f'src="data:image/png;base64,{data}">'
+            f"<figcaption>{html.escape(caption)}</figcaption></figure>"
+        )
+
+    # -- output ------------------------------------------------------------
+
+    def render(self) -> str:
+        """The complete HTML document.
+
+        Returns
+        -------
+        str
+            A self-contained HTML5 page (inline style, embedded images).
+        """
+        toc = "".join(
+            f'<li><a href="#{s.anchor}">{html.escape(s.title)}</a></li>' for s in self._sections
+        )
+        sections = []
+        for s in self._sections:
+            cls = ' class="newpage"' if s.newpage else ""
+            sections.append(
+                f'<section id="{s.anchor}"><h2{cls}>{html.escape(s.title)}</h2>'
+                + "\n".join(s.parts)
+                + "</section>"
+            )
+        foot = "".join(
+            f"<div>{html.escape(k)}: <code>{html.escape(v)}</code></div>" for k, v in self._footer
+        )
+        sub = f'<p class="sub">{html.escape(self.subtitle)}</p>' if self.subtitle else ""
+        nav = f'<nav class="toc"><ol>{toc}</ol></nav>' if len(self._sections) > 1 else ""
+        return (
+            "<!DOCTYPE html>\n"
+            '<html lang="en"><head><meta charset="utf-8">'
+            '<meta name="viewport" content="width=device-width, initial-scale=1">'
+            f"<title>{html.escape(self.title)}</title><style>{_CSS}</style></head>"
+            f'<body><main><header class="top"><h1>{html.escape(self.title)}</h1>{sub}</header>'
+            + "\n".join(self._preface)
+            + nav
+            + "\n".join(sections)
+            + f"<footer>{foot}</footer></main></body></html>\n"
+        )
