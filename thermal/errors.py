@@ -18,3 +18,12 @@ class UnreachableTargetError(ValueError):
     The message gives the physical reason, for example that air at 2 °C cannot
     bring the core below 2 °C.
     """
+
+
+class ValidityWarning(UserWarning):
+    """A correlation or property model is used outside its stated validity range.
+
+    The message names the range and the value; the result is an extrapolation,
+    not an error. Filter with ``warnings.simplefilter("error", ValidityWarning)``
+    to make such cases fail.
+    """
