@@ -1,0 +1,255 @@
+"""Food properties against outside references.
+
+- Component equations against CoolProp's incompressible fluids
+  ``INCOMP::Food*``, which implement the same Choi & Okos (1986) equations.
+- Mixture rules recomputed here from CoolProp component values, independent
+  of thermal.foods' own polynomials.
+- Mixtures against the ASHRAE Handbook — Refrigeration food table (table
+  "Unfrozen composition data, initial freezing point, and specific heats of
+  foods"), within tolerances stated beside each check.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from thermal.foods import (
+    COMPONENTS,
+    LATENT_HEAT_ICE,
+    Composition,
+    FoodProperties,
+    component_property,
+)
+
+CP = pytest.importorskip("CoolProp.CoolProp")
+
+_FLUID = {
+    "water": "INCOMP::FoodWater",
+    "ice": "INCOMP::FoodIce",
+    "protein": "INCOMP::FoodProtein",
+    "fat": "INCOMP::FoodFat",
+    "carbohydrate": "INCOMP::FoodCarbohydrate",
+    "fiber": "INCOMP::FoodFiber",
+    "ash": "INCOMP::FoodAsh",
+}
+_KEY = {"density": "D", "specific_heat": "C", "conductivity": "L"}
+
+
+def coolprop(component: str, prop: str, t_c: np.ndarray) -> np.ndarray:
+    """CoolProp value of one food component at temperatures [°C], 1 atm."""
+    return np.array(
+        [
+            CP.PropsSI(_KEY[prop], "T", float(t) + 273.15, "P", 101325.0, _FLUID[component])
+            for t in np.ravel(t_c)
+        ]
+    ).reshape(np.shape(t_c))
+
+
+# --------------------------------------------------------------------------- components
+
+# Source: CoolProp 6.x/7.x/8.x INCOMP::Food* fluids (Choi & Okos 1986), valid
+# 233.15-423.15 K. Measured agreement: identical to the last bit (relative
+# difference 0) at every point of the grid below; we allow 1e-12.
+_TEMPS = np.linspace(-40.0, 150.0, 77)
+_ICE_TEMPS = np.linspace(-40.0, 0.0, 41)
+
+
+@pytest.mark.parametrize("prop", ["density", "specific_heat", "conductivity"])
+@pytest.mark.parametrize("component", [c for c in COMPONENTS if c != "ice"])
+def test_component_matches_coolprop(component: str, prop: str) -> None:
+    # Source: CoolProp INCOMP::Food<component> (Choi & Okos 1986)
+    ours = component_property(component, prop, _TEMPS)
+    ref = coolprop(component, prop, _TEMPS)
+    np.testing.assert_allclose(ours, ref, rtol=1e-12)
+
+
+@pytest.mark.parametrize("prop", ["density", "specific_heat", "conductivity"])
+def test_ice_matches_coolprop_below_zero(prop: str) -> None:
+    # Source: CoolProp INCOMP::FoodIce (Choi & Okos 1986), ice below 0 °C
+    ours = component_property("ice", prop, _ICE_TEMPS)
+    ref = coolprop("ice", prop, _ICE_TEMPS)
+    np.testing.assert_allclose(ours, ref, rtol=1e-12)
+
+
+def test_water_specific_heat_is_the_coolprop_variant() -> None:
+    # Source: CoolProp INCOMP::FoodWater at 20 °C: 4129.27 J/(kg K). The other
+    # printed variant (4.1762 - 9.0864e-5 t + 5.4731e-6 t^2, from memory) would
+    # give 4176.6 J/(kg K); this pins which edition's equation we use.
+    ours = float(component_property("water", "specific_heat", 20.0))
+    assert ours == pytest.approx(4129.27196, rel=1e-9)
+    assert ours == pytest.approx(float(coolprop("water", "specific_heat", np.array(20.0))))
+
+
+# --------------------------------------------------------------------------- mixture rules
+
+_MIX = Composition(water=0.62, protein=0.17, fat=0.12, carbohydrate=0.06, fiber=0.01, ash=0.02)
+
+
+def _reference_mixture(food: FoodProperties, t: float) -> dict[str, float]:
+    """ASHRAE mixture rules evaluated with CoolProp component properties."""
+    comp = food.composition.normalised()
+    ice = float(food.ice_fraction(t))
+    x = {
+        "water": comp.water - ice,
+        "ice": ice,
+        "protein": comp.protein,
+        "fat": comp.fat,
+        "carbohydrate": comp.carbohydrate,
+        "fiber": comp.fiber,
+        "ash": comp.ash,
+    }
+    tt = np.array(t)
+    rho_i = {c: float(coolprop(c, "density", tt)) for c in x}
+    cp_i = {c: float(coolprop(c, "specific_heat", tt)) for c in x}
+    k_i = {c: float(coolprop(c, "conductivity", tt)) for c in x}
+    rho = 1.0 / sum(x[c] / rho_i[c] for c in x)
+    v = {c: x[c] / rho_i[c] * rho for c in x}
+    return {
+        "density": rho,
+        "sensible_cp": sum(x[c] * cp_i[c] for c in x),
+        "parallel": sum(v[c] * k_i[c] for c in x),
+        "series": 1.0 / sum(v[c] / k_i[c] for c in x),
+    }
+
+
+@pytest.mark.parametrize("t", [-35.0, -18.0, -5.0, 2.0, 20.0, 75.0, 140.0])
+def test_mixture_rules_against_coolprop_components(t: float) -> None:
+    # Source: ASHRAE Handbook — Refrigeration, Thermal Properties of Foods
+    # (rho = 1/sum(x_i/rho_i); cp = sum x_i cp_i; k parallel sum v_i k_i and
+    # series 1/sum(v_i/k_i)); components from CoolProp INCOMP::Food*.
+    food = FoodProperties(_MIX)
+    ref = _reference_mixture(food, t)
+    # density and k come from a table interpolated in T (documented < 1e-5)
+    assert float(food.density(t)) == pytest.approx(ref["density"], rel=1e-5)
+    assert float(food.sensible_specific_heat(t)) == pytest.approx(ref["sensible_cp"], rel=1e-10)
+    assert float(food.conductivity(t)) == pytest.approx(ref["parallel"], rel=1e-5)
+    series = FoodProperties(_MIX, conductivity_model="series")
+    assert float(series.conductivity(t)) == pytest.approx(ref["series"], rel=1e-5)
+
+
+def _maxwell_eucken_printed(k_c: float, k_d: float, v_d: float) -> float:
+    # Source: ASHRAE Handbook — Refrigeration, Thermal Properties of Foods,
+    # Maxwell–Eucken two-component form (continuous phase c, dispersed phase d).
+    return k_c * (2 * k_c + k_d - 2 * v_d * (k_c - k_d)) / (2 * k_c + k_d + v_d * (k_c - k_d))
+
+
+@pytest.mark.parametrize("t", [-25.0, -4.0, 10.0, 60.0])
+def test_maxwell_eucken_two_components_matches_printed_form(t: float) -> None:
+    # A water + protein food: above freezing one step (protein dispersed in
+    # water); below freezing a second step with the unfrozen matrix dispersed
+    # in continuous ice, each step by the printed two-phase formula.
+    comp = Composition(water=0.8, protein=0.2, fat=0.0)
+    food = FoodProperties(comp, conductivity_model="maxwell_eucken")
+    tt = np.array(t)
+    ice = float(food.ice_fraction(t))
+    x = {"water": 0.8 - ice, "ice": ice, "protein": 0.2}
+    rho = {c: float(coolprop(c, "density", tt)) for c in x}
+    k = {c: float(coolprop(c, "conductivity", tt)) for c in x}
+    vol = {c: x[c] / rho[c] for c in x}
+    total = sum(vol.values())
+    v = {c: vol[c] / total for c in x}
+    v_matrix = v["water"] + v["protein"]
+    k_matrix = _maxwell_eucken_printed(k["water"], k["protein"], v["protein"] / v_matrix)
+    expected = _maxwell_eucken_printed(k["ice"], k_matrix, v_matrix) if ice > 0 else k_matrix
+    assert float(food.conductivity(t)) == pytest.approx(expected, rel=1e-5)
+
+
+# --------------------------------------------------------------------------- ASHRAE food table
+
+# Source: ASHRAE Handbook — Refrigeration, "Thermal Properties of Foods", table
+# of unfrozen composition, initial freezing point, specific heats and latent
+# heat. Table values confirmed in a public copy printed in I-P units (cod:
+# 28.0 °F, 0.90 / 0.51 Btu/(lb °F), 117 Btu/lb; beef round, full cut, lean:
+# freezing point not printed, 0.84 / 0.51 Btu/(lb °F), 102 Btu/lb), i.e.
+# 3.77 / 2.14 kJ/(kg K), 272 kJ/kg and 3.52 / 2.13 kJ/(kg K), 237 kJ/kg.
+BTU_PER_LB_F = 4186.8  # J/(kg K) per Btu/(lb °F)
+BTU_PER_LB = 2326.0  # J/kg per Btu/lb
+
+# Cod, Atlantic, raw: composition (from memory, USDA values as reproduced in
+# the ASHRAE table): water 81.22 %, protein 17.81 %, fat 0.67 %, ash 1.16 %,
+# no carbohydrate. USDA proximates sum to 100.86 %; normalised here.
+COD = Composition.from_percent(81.22 / 1.0086, 17.81 / 1.0086, 0.67 / 1.0086, 0, 0, 1.16 / 1.0086)
+COD_FREEZING_POINT = (28.0 - 32.0) / 1.8  # -2.2 °C, table value
+# Beef round, lean: water 71.04 % derived from the table's latent heat
+# (237 kJ/kg / 333.6 kJ/kg, the table computes L = 333.6 x_w); protein 22.0 %,
+# fat 5.9 %, ash 1.06 % from memory (typical lean round). cp hardly depends on
+# how the 29 % dry matter splits between protein and fat (both about
+# 2 kJ/(kg K)).
+BEEF = Composition(water=0.7104, protein=0.2200, fat=0.0590, carbohydrate=0.0, ash=0.0106)
+
+
+@pytest.mark.parametrize(
+    ("name", "composition", "cp_table"),
+    [("cod", COD, 0.90 * BTU_PER_LB_F), ("beef round, lean", BEEF, 0.84 * BTU_PER_LB_F)],
+)
+def test_specific_heat_above_freezing_against_ashrae_table(name, composition, cp_table) -> None:
+    # Source: ASHRAE food table (see above). Choi–Okos sum at 10 °C. Measured:
+    # cod 3707 vs 3768 J/(kg K) (-1.6 %), beef 3507 vs 3517 (-0.3 %). The table
+    # value carries +-0.005 Btu/(lb °F) (0.6 %) of rounding and comes from a
+    # different correlation; we accept 3 %.
+    food = FoodProperties(composition)
+    assert float(food.specific_heat(10.0)) == pytest.approx(cp_table, rel=0.03), name
+
+
+@pytest.mark.parametrize(
+    ("name", "composition", "freezing_point", "cp_table"),
+    [
+        ("cod", COD, COD_FREEZING_POINT, 0.51 * BTU_PER_LB_F),
+        ("beef round, lean", BEEF, None, 0.51 * BTU_PER_LB_F),
+    ],
+)
+def test_specific_heat_below_freezing_against_ashrae_table(
+    name, composition, freezing_point, cp_table
+) -> None:
+    # Source: ASHRAE food table (see above); the table's frozen value is the
+    # apparent cp at -40 °C (from memory: its footnote; it agrees with the
+    # Schwartzberg latent term plus a frozen-food sensible correlation).
+    # Measured: cod (table freezing point -2.2 °C) 2430 vs 2135 (+13.8 %),
+    # beef (Pham estimate -2.14 °C) 2406 vs 2135 (+12.7 %). The component sum
+    # keeps the bound and unfrozen water at liquid-water cp (about 4.1 kJ/(kg
+    # K)) where the table's correlation uses a lower frozen-food value, so the
+    # Choi–Okos model runs about 13 % high here; we accept 16 % and check the
+    # sign of the difference so that a change of model shows up.
+    food = FoodProperties(composition, freezing_point=freezing_point)
+    ours = float(food.specific_heat(-40.0))
+    assert ours == pytest.approx(cp_table, rel=0.16), name
+    assert ours > cp_table
+
+
+def test_latent_heat_against_ashrae_table_cod() -> None:
+    # Source: ASHRAE food table, cod 117 Btu/lb = 272.1 kJ/kg (+-1.2 kJ/kg
+    # printed rounding), computed there as 333.6 kJ/kg x water. Ours uses the
+    # water fraction after normalising the USDA proximates (80.53 % instead of
+    # 81.22 %), 268.6 kJ/kg: -1.3 %. We accept 2 %.
+    food = FoodProperties(COD, freezing_point=COD_FREEZING_POINT)
+    assert food.latent_heat == pytest.approx(117 * BTU_PER_LB, rel=0.02)
+    assert food.latent_heat == pytest.approx(LATENT_HEAT_ICE * COD.water, rel=1e-12)
+
+
+def test_latent_heat_beef_matches_table_definition() -> None:
+    # Source: ASHRAE food table, beef round lean 102 Btu/lb = 237 kJ/kg. The
+    # water fraction above was derived from it, so this only checks that
+    # latent_heat follows the table's definition L = 333.6 kJ/kg x water.
+    assert FoodProperties(BEEF).latent_heat == pytest.approx(102 * BTU_PER_LB, rel=0.005)
+
+
+def test_pham_freezing_point_estimate_against_ashrae_cod() -> None:
+    # Source: ASHRAE food table, cod initial freezing point 28.0 °F (-2.2 °C).
+    # Estimate: Pham (1996), J. Food Eng. 30, 95-107 (formula confirmed in a
+    # secondary public copy). Measured: -1.68 °C, 0.52 K warmer than the table.
+    # A composition-only estimate is coarse; we accept 0.6 K and require it to
+    # lie between 0 and -3 °C.
+    food = FoodProperties(COD)
+    assert food.freezing_point == pytest.approx(COD_FREEZING_POINT, abs=0.6)
+    assert -3.0 < food.freezing_point < 0.0
+
+
+def test_frozen_lean_meat_conductivity_order_of_magnitude() -> None:
+    # Common practice (from memory, ASHRAE conductivity tables): lean beef
+    # about 0.45-0.50 W/(m K) chilled and 1.3-1.6 W/(m K) frozen at -20 °C.
+    # The Maxwell–Eucken model gives 0.462 and 1.390; the parallel model is the
+    # upper bound (1.577 frozen). Wide bands: a plausibility check only.
+    food = FoodProperties(BEEF, conductivity_model="maxwell_eucken")
+    assert 0.40 < float(food.conductivity(5.0)) < 0.55
+    assert 1.1 < float(food.conductivity(-20.0)) < 1.7
