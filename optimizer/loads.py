@@ -1,0 +1,556 @@
+"""Candidate batch loads and tunnel runs, read from the dwell table.
+
+The planner never calls the physics: it reads the dwell table (one row per
+product x oven x oven setting x tunnel x tunnel setting x loading) and turns
+the feasible rows into
+
+* cook options: (product, oven, oven setting) -> cook dwell [min] and heat
+  in [kJ/kg];
+* tunnel routes: (product, oven, oven setting, tunnel, tunnel setting,
+  loading) -> fastest belt speed [m/min], throughput [kg/min] and heat out
+  [kJ/kg];
+* batch loads: (oven, setting, trays of each product) -> cycle [min] and
+  most kg of each product per batch.
+
+Rules used here (documented choices):
+
+* A product is cooked at an (oven, setting) only if at least one feasible
+  tunnel route takes it from there (what is cooked must be chilled).
+* The cook dwell of a (product, oven, setting) is the largest ``cook_min`` of
+  its feasible rows (they should all be equal; the largest is the safe one).
+* Belt speed is ``max_belt_speed_m_per_min`` from the table, capped at the
+  tunnel's maximum; a speed below the tunnel's minimum rules the route out.
+  Throughput [kg/min] = ``belt_kg_per_m2 * coverage * width_m * speed``.
+* Hot hold (a linear sufficient condition, per batch): a batch holding ``m``
+  kg of product p, cleared at ``r`` kg/min, waits at most ``m / r`` minutes
+  for the belt once the belt takes it as it is unloaded. So (i) the trays of
+  p in any batch at (oven, setting) are capped so that ``m <= r_max *
+  hot_hold`` with ``r_max`` the fastest route from there, and (ii) only
+  routes with ``r * hot_hold >= m_max`` may take p from there, ``m_max`` the
+  largest kg of p in any load at that oven and setting. The shift-level
+  model does not sequence runs inside a shift: the condition assumes each
+  tunnel takes a batch as it is unloaded, which a shift planner must keep
+  when ovens sharing one tunnel unload at once.
+* A mixed load holds at most two products whose cook dwells are close: the
+  longer is at most ``(1 + mix_tolerance)`` times the shorter; the batch
+  runs as long as the slower product. Batches may be loaded below the
+  pattern (fewer trays), so only tray patterns that are maximal (no other
+  pattern has at least as many trays of each product) are kept: the others
+  are dominated.
+* Within one (product, oven, setting, tunnel, tunnel setting) a loading
+  option is dropped when another one is at least as fast and needs no more
+  heat out (it is dominated).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from optimizer.inputs import PlanInputs
+
+_KEY_SEP = "|"
+
+
+@dataclass(frozen=True)
+class CookOption:
+    """A product cookable in an oven at one setting.
+
+    Parameters
+    ----------
+    product, oven, setting : str
+        Keys.
+    cook_min : float
+        Cook dwell of the largest piece, margin included [min].
+    heat_in_kj_per_kg : float
+        Heat put into the product by the oven [kJ/kg].
+    max_trays : int
+        Most trays of this product one batch may hold (oven trays, oven kg
+        capacity and the hot-hold cap) [-].
+    """
+
+    product: str
+    oven: str
+    setting: str
+    cook_min: float
+    heat_in_kj_per_kg: float
+    max_trays: int
+
+
+@dataclass(frozen=True)
+class TunnelRoute:
+    """One way a product from one oven setting goes through a tunnel.
+
+    Parameters
+    ----------
+    product, oven, oven_setting, tunnel, tunnel_setting, loading : str
+        Keys.
+    belt_speed_m_per_min : float
+        Belt speed used (the fastest the chill rule allows) [m/min].
+    rate_kg_per_min : float
+        Throughput at that speed and loading [kg/min].
+    heat_in_kj_per_kg, heat_out_kj_per_kg : float
+        Oven heat in and tunnel heat out [kJ/kg].
+    chill_min : float
+        Residence time the chill rule needs [min].
+    """
+
+    product: str
+    oven: str
+    oven_setting: str
+    tunnel: str
+    tunnel_setting: str
+    loading: str
+    belt_speed_m_per_min: float
+    rate_kg_per_min: float
+    heat_in_kj_per_kg: float
+    heat_out_kj_per_kg: float
+    chill_min: float
+
+    @property
+    def key(self) -> str:
+        """Stable text key."""
+        return _KEY_SEP.join(
+            (
+                self.product,
+                self.oven,
+                self.oven_setting,
+                self.tunnel,
+                self.tunnel_setting,
+                self.loading,
+            )
+        )
+
+    @property
+    def run(self) -> tuple[str, str, str]:
+        """The tunnel run this route belongs to: (tunnel, product, tunnel setting).
+
+        Changing the loading pattern inside a run costs no changeover.
+        """
+        return (self.tunnel, self.product, self.tunnel_setting)
+
+    @property
+    def source(self) -> tuple[str, str, str]:
+        """(product, oven, oven setting) this route takes product from."""
+        return (self.product, self.oven, self.oven_setting)
+
+
+@dataclass(frozen=True)
+class BatchLoad:
+    """A batch load: one oven, one setting, trays of one or two products.
+
+    Parameters
+    ----------
+    oven, setting : str
+        Keys.
+    trays : tuple of (str, int)
+        Trays of each product, sorted by product key [-].
+    kg : tuple of (str, float)
+        Most kg of each product per batch, same order [kg].
+    cook_min : float
+        Cook dwell of the slowest product in the load [min].
+    cycle_min : float
+        Cook plus load and unload minutes per batch [min].
+    """
+
+    oven: str
+    setting: str
+    trays: tuple[tuple[str, int], ...]
+    kg: tuple[tuple[str, float], ...]
+    cook_min: float
+    cycle_min: float
+
+    @property
+    def key(self) -> str:
+        """Stable text key, e.g. ``oven-1|hot|beef:4+pork:6``."""
+        body = "+".join(f"{p}:{n}" for p, n in self.trays)
+        return _KEY_SEP.join((self.oven, self.setting, body))
+
+    @property
+    def products(self) -> tuple[str, ...]:
+        """Product keys in the load."""
+        return tuple(p for p, _ in self.trays)
+
+    @property
+    def is_mixed(self) -> bool:
+        """True when the load holds more than one product."""
+        return len(self.trays) > 1
+
+    @property
+    def description(self) -> str:
+        """Readable description, e.g. ``beef x4 + pork x6 trays``."""
+        return " + ".join(f"{p} x{n}" for p, n in self.trays) + " trays"
+
+    def kg_of(self, product: str) -> float:
+        """Most kg of ``product`` per batch of this load [kg]."""
+        for p, m in self.kg:
+            if p == product:
+                return m
+        return 0.0
+
+
+@dataclass(frozen=True)
+class Candidates:
+    """Everything the model is built from.
+
+    Parameters
+    ----------
+    cook : mapping
+        (product, oven, setting) -> CookOption, cookable and routable only.
+    routes : tuple of TunnelRoute
+        Sorted by key.
+    singles : tuple of BatchLoad
+        One full single-product load per cook option, sorted by key.
+    mixed_pool : tuple of BatchLoad
+        All maximal mixed loads (enumerated), sorted by key; the model uses
+        all of them or the ones column generation picks.
+    excluded : mapping
+        product -> reasons it has no cook option or no route (from the dwell
+        table and the checks here); empty for planned products that can run.
+    """
+
+    cook: Mapping[tuple[str, str, str], CookOption]
+    routes: tuple[TunnelRoute, ...]
+    singles: tuple[BatchLoad, ...]
+    mixed_pool: tuple[BatchLoad, ...]
+    excluded: Mapping[str, tuple[str, ...]]
+
+
+def planned_products(inputs: PlanInputs) -> tuple[str, ...]:
+    """Products named in at least one order, in catalogue order."""
+    ordered = {o.product for o in inputs.orders}
+    return tuple(p.name for p in inputs.products if p.name in ordered)
+
+
+def _feasible_rows(inputs: PlanInputs):
+    d = inputs.dwell
+    feas = d["feasible"].astype(bool).to_numpy()
+    return d.loc[feas]
+
+
+def candidates(inputs: PlanInputs, mix_tolerance: float, max_mix_products: int) -> Candidates:
+    """Cook options, tunnel routes and loads for ``inputs``.
+
+    Parameters
+    ----------
+    inputs : PlanInputs
+        Planner inputs.
+    mix_tolerance : float
+        Products share a mixed load when the longer cook is at most
+        ``(1 + mix_tolerance)`` times the shorter [-].
+    max_mix_products : int
+        1 (single-product loads only) or 2.
+
+    Returns
+    -------
+    Candidates
+    """
+    planned = planned_products(inputs)
+    prods = {p.name: p for p in inputs.products}
+    ovens = {o.name: o for o in inputs.ovens}
+    tunnels = {t.name: t for t in inputs.tunnels}
+    excluded: dict[str, list[str]] = defaultdict(list)
+
+    all_rows = inputs.dwell
+    rows = _feasible_rows(inputs)
+    rows = rows[rows["product"].isin(planned)]
+    known = rows["oven"].isin(ovens) & rows["tunnel"].isin(tunnels)
+    rows = rows[known]
+
+    # Raw routes with belt speed and rate; skip settings/loadings the plant lacks.
+    raw: dict[tuple[str, str, str], list[TunnelRoute]] = defaultdict(list)
+    cook_min: dict[tuple[str, str, str], float] = {}
+    heat_in: dict[tuple[str, str, str], float] = {}
+    cols = [
+        "product",
+        "oven",
+        "oven_setting",
+        "tunnel",
+        "tunnel_setting",
+        "loading",
+        "cook_min",
+        "heat_in_kj_per_kg",
+        "heat_out_kj_per_kg",
+        "chill_min",
+        "max_belt_speed_m_per_min",
+    ]
+    for r in rows[cols].itertuples(index=False, name=None):
+        p, o, os_, t, ts, ld, cmin, hin, hout, chmin, vmax = r
+        oven, tun = ovens[o], tunnels[t]
+        if os_ not in oven.settings or ts not in tun.settings:
+            continue
+        if ld not in {x.name for x in tun.loadings}:
+            continue
+        if not (np.isfinite(cmin) and cmin > 0 and np.isfinite(vmax) and vmax > 0):
+            continue
+        v = min(float(vmax), tun.max_speed_m_per_min)
+        if v < tun.min_speed_m_per_min:
+            continue
+        rate = prods[p].belt_kg_per_m2 * tun.coverage(ld) * tun.width_m * v
+        hin = float(hin) if np.isfinite(hin) else 0.0
+        hout = float(hout) if np.isfinite(hout) else 0.0
+        route = TunnelRoute(p, o, os_, t, ts, ld, v, rate, hin, hout, float(chmin))
+        raw[(p, o, os_)].append(route)
+        cook_min[(p, o, os_)] = max(cook_min.get((p, o, os_), 0.0), float(cmin))
+        heat_in[(p, o, os_)] = max(heat_in.get((p, o, os_), 0.0), hin)
+
+    cook: dict[tuple[str, str, str], CookOption] = {}
+    routes: list[TunnelRoute] = []
+    longest_shift = max(max(s.available(o) for s in inputs.shifts) for o in ovens)
+    for src in sorted(raw):
+        p, o, os_ = src
+        oven, prod = ovens[o], prods[p]
+        if cook_min[src] + oven.load_unload_min > longest_shift:
+            excluded[p].append(
+                f"{o} at {os_}: cook {cook_min[src]:.0f} min does not fit in a shift"
+            )
+            continue
+        trays = min(oven.trays, math.floor(oven.capacity_kg / prod.kg_per_tray + 1e-9))
+        rmax = max(rt.rate_kg_per_min for rt in raw[src])
+        if math.isfinite(prod.hot_hold_min):
+            trays = min(trays, math.floor(rmax * prod.hot_hold_min / prod.kg_per_tray + 1e-9))
+        if trays < 1:
+            excluded[p].append(
+                f"{o} at {os_}: not one tray fits the oven or the hot-hold limit "
+                f"({prod.hot_hold_min:g} min at the fastest belt)"
+            )
+            continue
+        cook[src] = CookOption(p, o, os_, cook_min[src], heat_in[src], trays)
+        m_max = trays * prod.kg_per_tray
+        ok = [
+            rt
+            for rt in raw[src]
+            if not math.isfinite(prod.hot_hold_min)
+            or rt.rate_kg_per_min * prod.hot_hold_min >= m_max * (1 - 1e-9)
+        ]
+        routes.extend(_undominated(ok))
+    routes.sort(key=lambda r: r.key)
+
+    for p in planned:
+        if not any(k[0] == p for k in cook):
+            sub = all_rows[all_rows["product"] == p]
+            reasons = sorted({str(x) for x in sub["reason"] if isinstance(x, str) and x})
+            if sub.empty:
+                reasons.append("no rows in the dwell table")
+            elif not reasons and not excluded[p]:
+                reasons.append("no feasible row on this plant's ovens, tunnels and settings")
+            excluded[p] = list(excluded[p]) + reasons
+
+    singles = sorted(
+        (_load(inputs, o, os_, {p: c.max_trays}, cook) for (p, o, os_), c in cook.items()),
+        key=lambda ld: ld.key,
+    )
+    mixed = (
+        sorted(_mixed_loads(inputs, cook, mix_tolerance), key=lambda ld: ld.key)
+        if max_mix_products >= 2
+        else []
+    )
+    return Candidates(
+        cook=dict(sorted(cook.items())),
+        routes=tuple(routes),
+        singles=tuple(singles),
+        mixed_pool=tuple(mixed),
+        excluded={p: tuple(v) for p, v in sorted(excluded.items()) if v and p in planned},
+    )
+
+
+def _undominated(routes: list[TunnelRoute]) -> list[TunnelRoute]:
+    """Drop loadings beaten (faster and no more heat out) within one tunnel setting."""
+    keep = []
+    for a in routes:
+        dominated = False
+        for b in routes:
+            if b is a or (b.tunnel, b.tunnel_setting) != (a.tunnel, a.tunnel_setting):
+                continue
+            ge = (
+                b.rate_kg_per_min >= a.rate_kg_per_min
+                and b.heat_out_kj_per_kg <= a.heat_out_kj_per_kg
+            )
+            gt = (
+                b.rate_kg_per_min > a.rate_kg_per_min
+                or b.heat_out_kj_per_kg < a.heat_out_kj_per_kg
+                or b.loading < a.loading
+            )
+            if ge and gt:
+                dominated = True
+                break
+        if not dominated:
+            keep.append(a)
+    return keep
+
+
+def _load(
+    inputs: PlanInputs,
+    oven: str,
+    setting: str,
+    trays: Mapping[str, int],
+    cook: Mapping[tuple[str, str, str], CookOption],
+) -> BatchLoad:
+    o = next(x for x in inputs.ovens if x.name == oven)
+    items = tuple(sorted((p, int(n)) for p, n in trays.items() if n > 0))
+    kg = tuple((p, n * inputs.product(p).kg_per_tray) for p, n in items)
+    cmin = max(cook[(p, oven, setting)].cook_min for p, _ in items)
+    return BatchLoad(oven, setting, items, kg, cmin, cmin + o.load_unload_min)
+
+
+def close_enough(a_min: float, b_min: float, tolerance: float) -> bool:
+    """True when the longer of two cook dwells is within ``(1 + tolerance)`` of the shorter."""
+    lo, hi = sorted((a_min, b_min))
+    return hi <= (1.0 + tolerance) * lo * (1 + 1e-12)
+
+
+def pair_patterns(
+    trays: int,
+    capacity_kg: float,
+    kg_a: float,
+    kg_b: float,
+    max_a: int,
+    max_b: int,
+) -> list[tuple[int, int]]:
+    """Maximal tray patterns (a, b), a >= 1, b >= 1, of two products in one batch.
+
+    Parameters
+    ----------
+    trays : int
+        Tray positions [-].
+    capacity_kg : float
+        Batch capacity [kg].
+    kg_a, kg_b : float
+        kg per tray of each product [kg].
+    max_a, max_b : int
+        Tray caps of each product (hot hold) [-].
+
+    Returns
+    -------
+    list of (int, int)
+        Patterns no other pattern beats in both counts, by increasing ``a``.
+    """
+    best: list[tuple[int, int]] = []
+    for a in range(1, min(max_a, trays - 1) + 1):
+        room = capacity_kg - a * kg_a
+        b = min(trays - a, max_b, math.floor(room / kg_b + 1e-9))
+        if b >= 1:
+            best.append((a, b))
+    out = []
+    for i, (a, b) in enumerate(best):
+        # b is non-increasing in a; (a, b) is dominated when a+1 keeps the same b.
+        if i + 1 < len(best) and best[i + 1][1] >= b:
+            continue
+        out.append((a, b))
+    return out
+
+
+def _pairs(
+    inputs: PlanInputs,
+    cook: Mapping[tuple[str, str, str], CookOption],
+    tolerance: float,
+):
+    by_oven: dict[tuple[str, str], list[CookOption]] = defaultdict(list)
+    for c in cook.values():
+        by_oven[(c.oven, c.setting)].append(c)
+    for (o, os_), opts in sorted(by_oven.items()):
+        opts = sorted(opts, key=lambda c: (c.cook_min, c.product))
+        for i, a in enumerate(opts):
+            for b in opts[i + 1 :]:
+                if not close_enough(a.cook_min, b.cook_min, tolerance):
+                    break
+                pa, pb = sorted((a, b), key=lambda c: c.product)
+                yield o, os_, pa, pb
+
+
+def _mixed_loads(
+    inputs: PlanInputs,
+    cook: Mapping[tuple[str, str, str], CookOption],
+    tolerance: float,
+) -> list[BatchLoad]:
+    out = []
+    ovens = {o.name: o for o in inputs.ovens}
+    for o, os_, a, b in _pairs(inputs, cook, tolerance):
+        oven = ovens[o]
+        ka, kb = inputs.product(a.product).kg_per_tray, inputs.product(b.product).kg_per_tray
+        for na, nb in pair_patterns(oven.trays, oven.capacity_kg, ka, kb, a.max_trays, b.max_trays):
+            out.append(_load(inputs, o, os_, {a.product: na, b.product: nb}, cook))
+    return out
+
+
+def price_mixed_loads(
+    inputs: PlanInputs,
+    cook: Mapping[tuple[str, str, str], CookOption],
+    tolerance: float,
+    kg_value: Mapping[tuple[str, str, str, str], float],
+    minute_cost: Mapping[tuple[str, str, str], float],
+    limit_per_oven_setting: int = 3,
+    threshold: float = 1e-6,
+) -> list[tuple[float, BatchLoad]]:
+    """Knapsack pricing of mixed loads from LP duals (column generation).
+
+    For each (oven, setting), shift and pair of close products, the best tray
+    pattern is found exactly by scanning the tray count of the first product
+    (the second gets the most trays that still fit the tray positions, the kg
+    capacity and its hot-hold cap): this is the two-product knapsack over
+    tray counts. Because a batch may be loaded below its pattern, a product
+    whose kg has no value in that shift contributes nothing, and such a pair
+    is left to the single-product loads.
+
+    Parameters
+    ----------
+    inputs : PlanInputs
+        Planner inputs.
+    cook : mapping
+        Cook options.
+    tolerance : float
+        Mix tolerance [-].
+    kg_value : mapping
+        (product, oven, setting, shift) -> value of one more kg unloaded
+        there [objective units/kg].
+    minute_cost : mapping
+        (oven, setting, shift) -> cost of one more batch-minute there
+        [objective units/min].
+    limit_per_oven_setting : int
+        Most loads returned per (oven, setting).
+    threshold : float
+        Least improvement a load must bring per batch [objective units].
+
+    Returns
+    -------
+    list of (float, BatchLoad)
+        Best improvement per batch (over shifts) and the load, best first.
+    """
+    shifts = [s.name for s in inputs.shifts]
+    found: dict[tuple[str, str], dict[str, tuple[float, BatchLoad]]] = defaultdict(dict)
+    ovens = {o.name: o for o in inputs.ovens}
+    for o, os_, a, b in _pairs(inputs, cook, tolerance):
+        oven = ovens[o]
+        ka, kb = inputs.product(a.product).kg_per_tray, inputs.product(b.product).kg_per_tray
+        cycle = max(a.cook_min, b.cook_min) + oven.load_unload_min
+        patterns = pair_patterns(oven.trays, oven.capacity_kg, ka, kb, a.max_trays, b.max_trays)
+        if not patterns:
+            continue
+        pat = np.asarray(patterns, dtype=float)
+        for s in shifts:
+            va = kg_value.get((a.product, o, os_, s), 0.0)
+            vb = kg_value.get((b.product, o, os_, s), 0.0)
+            if va <= 0 or vb <= 0:
+                continue
+            gain = (
+                va * ka * pat[:, 0]
+                + vb * kb * pat[:, 1]
+                - cycle * minute_cost.get((o, os_, s), 0.0)
+            )
+            i = int(np.argmax(gain))
+            if gain[i] > threshold:
+                na, nb = patterns[i]
+                load = _load(inputs, o, os_, {a.product: na, b.product: nb}, cook)
+                prev = found[(o, os_)].get(load.key)
+                if prev is None or gain[i] > prev[0]:
+                    found[(o, os_)][load.key] = (float(gain[i]), load)
+    out = []
+    for key in sorted(found):
+        items = sorted(found[key].values(), key=lambda x: (-x[0], x[1].key))
+        out.extend(items[:limit_per_oven_setting])
+    out.sort(key=lambda x: (-x[0], x[1].key))
+    return out
