@@ -617,6 +617,8 @@ def air_properties(
     temperature: ArrayLike,
     pressure: ArrayLike = ATMOSPHERIC_PRESSURE,
     humidity_ratio: ArrayLike = 0.0,
+    *,
+    allow_supersaturated: bool = False,
 ) -> AirProperties:
     """Density, viscosity, conductivity, specific heat and Prandtl number of air.
 
@@ -635,6 +637,11 @@ def air_properties(
         Mass of water vapour per mass of dry air [kg/kg], >= 0; ``inf`` means
         pure steam. The vapour partial pressure must not exceed the saturation
         pressure at ``temperature`` (no fog). Default 0 (dry air).
+    allow_supersaturated : bool, optional
+        Accept vapour above saturation, treated as a metastable gas. Meant for
+        film properties in the boundary layer next to a surface colder than
+        the dew point (where condensation, not modelled here, takes place).
+        Default False.
 
     Returns
     -------
@@ -674,7 +681,8 @@ def air_properties(
     t_c, p, w = np.broadcast_arrays(t_c, p, w)
     t_k = t_c + KELVIN
     x_w = _mole_fraction_from_ratio(w)
-    _check_not_supersaturated(t_c, p, x_w)
+    if not allow_supersaturated:
+        _check_not_supersaturated(t_c, p, x_w)
     _warn_outside(t_k, p)
 
     molar_mass = (1.0 - x_w) * MOLAR_MASS_AIR + x_w * MOLAR_MASS_WATER
