@@ -129,8 +129,9 @@ def test_registry_function_against_reference(key):
 
 def test_churchill_bernstein_worked_example():
     # Source: Bergman et al., Fundamentals of Heat and Mass Transfer, 7th ed.,
-    # Example 7.3: Re_D = 6071, Pr = 0.7 -> Nu_D = 40.6 (printed 40.6; the ht
-    # library gives 40.637 for the same inputs).
+    # Example 7.3: Re_D = 6071, Pr = 0.7 -> Nu_D = 40.6 (the example's inputs
+    # and the ht value 40.637 are confirmed; its printed rounding 40.6 is from
+    # memory).
     assert float(nusselt_cylinder_churchill_bernstein(6071.0, 0.7)) == pytest.approx(40.6, abs=0.05)
     assert float(nusselt_cylinder_churchill_bernstein(6071.0, 0.7)) == pytest.approx(
         40.637, rel=1e-4
@@ -285,7 +286,7 @@ def test_still_oven_slab_natural_convection_and_radiation_dominates():
 
 
 def test_validity_warning_outside_range_names_range_and_value():
-    # Re = 0.4 m/s * 5 mm / nu ≈ 0.1 at 20 °C... use a tiny slow sphere: Re < 3.5.
+    # A 1 mm sphere in 0.02 m/s air: Re ≈ 1.3, below Whitaker's 3.5.
     sphere = SimpleNamespace(kind="sphere", radius=0.0005)
     with pytest.warns(
         ValidityWarning,
