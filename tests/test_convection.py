@@ -245,6 +245,14 @@ def test_condensation_warning_below_dew_point():
         )
 
 
+def test_air_property_range_warning_is_reported():
+    # Cryogenic tunnel air at -110 °C is below the 200 K validity of the gas
+    # correlations (thermal.air): the warning reaches the result.
+    with pytest.warns(ValidityWarning, match=r"air_properties: temperature -110"):
+        res = surface_coefficient(cylinder(), AirSetting(-110.0, 3.0))
+    assert any("air_properties" in w for w in res.warnings)
+
+
 def test_warnings_in_result_match_emitted():
     with pytest.warns(ValidityWarning) as record:
         res = surface_coefficient(sphere(0.03), AirSetting(0.0, 2.0), surface_temperature=80.0)

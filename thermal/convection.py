@@ -946,6 +946,15 @@ def _natural_h(
     return nusselt * float(film.conductivity) / length
 
 
+def _properties(air: AirSetting, temperature: float | None, notes: list[str]) -> AirProperties:
+    """Air properties, collecting property-range warnings into ``notes``."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", ValidityWarning)
+        props = air.properties(temperature)
+    notes.extend(str(w.message) for w in caught if issubclass(w.category, ValidityWarning))
+    return props
+
+
 def _regime(air: AirSetting, natural: bool, grashof: float, reynolds: float) -> str:
     if not natural:
         return "forced"
@@ -980,7 +989,10 @@ def surface_coefficient(
     a product far from the air temperature. When it is given, forced and
     natural convection are combined per face as h³ = h_F³ + h_N³ (Churchill
     1977, transverse flow) and ``regime`` tells which dominates by Gr/Re²
-    (below 0.1 forced, above 10 natural, else mixed).
+    (below 0.1 forced, above 10 natural, else mixed). A ``measured_h`` on the
+    air setting replaces all of this (radiation included in it); the loading
+    factor still multiplies it, so pass 1.0 if it was measured on the loaded
+    belt or tray.
 
     Parameters
     ----------
@@ -1057,7 +1069,7 @@ def surface_coefficient(
     t_film = t_air if ts is None else 0.5 * (t_air + ts)
 
     if air.measured_h is not None:
-        props = air.properties(t_film)
+        props = _properties(air, t_film, notes)
         h_conv = air.measured_h * lf
         reynolds = air.speed * principal / float(props.kinematic_viscosity)
         return ConvectionResult(
@@ -1069,7 +1081,7 @@ def surface_coefficient(
             nusselt=air.measured_h * principal / float(props.conductivity),
             regime="measured",
             film_temperature=t_film,
-            warnings=(),
+            warnings=_emit(notes),
             rayleigh=math.nan,
             length=principal,
             environment_temperature=t_air,
@@ -1086,11 +1098,11 @@ def surface_coefficient(
                 "condensation on the product is not modelled, so h is underestimated"
             )
 
-    film = air.properties(t_film)
-    free = air.properties()
+    film = _properties(air, t_film, notes)
+    free = _properties(air, None, notes)
     mu_surface = float(free.viscosity)
     if ts is not None:
-        mu_surface = float(air.properties(ts).viscosity)
+        mu_surface = float(_properties(air, ts, notes).viscosity)
     keys = _forced_keys(faces, correlation)
     natural = ts is not None and ts != t_air
     film_k = t_film + KELVIN
