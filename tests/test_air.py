@@ -235,15 +235,16 @@ def test_humid_transport_against_pure_fluid_mixing(t, x_w):
 @pytest.mark.parametrize("t", [100.0, 150.0, 200.0, 300.0])
 def test_pure_steam_against_coolprop(t):
     # Source: CoolProp PropsSI(..., 'Water') (IAPWS-95, IAPWS 2008/2011) at
-    # 1 atm. Tolerances from the low-density model: 0.5 % density, 2.5 % cp
-    # (10 % of the real-gas cp excess is missed at 100 °C), 1 % mu, 2 % k.
+    # 1 atm. Tolerances from the low-density model: 0.5 % density, 2 % cp
+    # (measured -1.8 % at 100 °C: the second virial term catches most of the
+    # real-gas cp excess, not all), 1 % mu, 2 % k (measured -1.7 % at 100 °C).
     props = air_properties(t, 101325, np.inf)
     tk = t + K
     assert float(props.density) == pytest.approx(
         PropsSI("D", "T", tk, "P", 101325, "Water"), rel=0.005
     )
     assert float(props.specific_heat) == pytest.approx(
-        PropsSI("C", "T", tk + 1e-6, "P", 101325, "Water"), rel=0.025
+        PropsSI("C", "T", tk + 1e-6, "P", 101325, "Water"), rel=0.02
     )
     assert float(props.viscosity) == pytest.approx(
         PropsSI("V", "T", tk, "P", 101325, "Water"), rel=0.01
