@@ -50,7 +50,9 @@ Each correlation in :data:`CORRELATIONS` carries its published validity
 ranges; outside them a :class:`thermal.errors.ValidityWarning` names the
 range and the value (mild extrapolation is allowed, never silent). Condensation
 on a surface colder than the dew point of humid air (steam ovens) is not
-modelled and also triggers a warning: h is then underestimated.
+modelled and also triggers a warning: h is then underestimated. Buoyancy is
+taken from temperature alone (β = 1/T_film for an ideal gas); density
+differences from humidity gradients next to the surface are neglected.
 """
 
 from __future__ import annotations
