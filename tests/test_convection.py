@@ -64,6 +64,8 @@ def test_air_setting_humidity_from_relative_and_ratio():
     b = AirSetting(150.0, 2.0, humidity_ratio=float("inf"))
     assert math.isinf(b.moisture)
     assert AirSetting(20.0, 1.0).moisture == 0.0
+    # Dry air above the critical point of water, where no saturation exists.
+    assert AirSetting(400.0, 1.0, relative_humidity=0.0).moisture == 0.0
     assert AirSetting(20.0, 1.0).wall == 20.0
     assert AirSetting(20.0, 1.0, wall_temperature=35.0).wall == 35.0
 

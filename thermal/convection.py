@@ -686,6 +686,13 @@ class AirSetting:
         alternative to ``relative_humidity`` for steam ovens (give one, not
         both).
 
+    Attributes
+    ----------
+    moisture : float
+        Humidity ratio used for the air properties [kg/kg] (0 for dry air,
+        ``inf`` for pure steam), from ``relative_humidity`` or
+        ``humidity_ratio``.
+
     Raises
     ------
     ThermalInputError
@@ -723,7 +730,7 @@ class AirSetting:
         if self.relative_humidity is not None:
             rh = _scalar("relative_humidity", self.relative_humidity)
             object.__setattr__(self, "relative_humidity", rh)
-            w = float(humidity_ratio_from_relative(t, rh, p))
+            w = 0.0 if rh == 0.0 else float(humidity_ratio_from_relative(t, rh, p))
         elif self.humidity_ratio is not None:
             w = _scalar("humidity_ratio", self.humidity_ratio, allow_inf=True)
             object.__setattr__(self, "humidity_ratio", w)
