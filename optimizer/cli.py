@@ -36,7 +36,7 @@ import json
 import os
 import sys
 import time
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from importlib import metadata
@@ -243,13 +243,16 @@ def _scenario_path(text: str) -> Path:
     return path
 
 
-def load(path_text: str) -> Any:
+def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
     """Load and validate a scenario file, turning every problem into :class:`BadInput`.
 
     Parameters
     ----------
     path_text : str
         Scenario file as given on the command line.
+    args : argparse.Namespace, optional
+        Parsed options; its ``set`` list (``--set PATH=VALUE``) is applied
+        to the file's contents before validation (the file is not changed).
 
     Returns
     -------
@@ -262,10 +265,20 @@ def load(path_text: str) -> Any:
         Listing every problem, each prefixed with the file name.
     """
     path = _scenario_path(path_text)
+    from optimizer.overrides import OverrideError, parse_assignment
     from optimizer.scenario import ScenarioError, load_scenario
 
+    changes = []
+    problems = []
+    for text in getattr(args, "set", None) or []:
+        try:
+            changes.append(parse_assignment(text))
+        except OverrideError as exc:
+            problems.append(str(exc))
+    if problems:
+        raise BadInput(problems)
     try:
-        return load_scenario(path)
+        return load_scenario(path, changes)
     except ScenarioError as exc:
         raise BadInput([f"{path_text}: {p}" for p in _problems(exc)]) from exc
 
@@ -323,7 +336,7 @@ def _written(ui: Ui, paths: Sequence[Path]) -> None:
 
 def cmd_validate(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace validate SCENARIO``: check a scenario file."""
-    scenario = load(args.scenario)
+    scenario = load(args.scenario, args)
     summary = _scenario_summary(scenario)
     ui.emit_json({"scenario": args.scenario, "valid": True, "problems": [], **summary})
     parts = ", ".join(f"{v} {k}" for k, v in summary.items())
@@ -347,56 +360,12 @@ def _scenario_summary(scenario: Any) -> dict[str, int]:
 # dwell
 # ---------------------------------------------------------------------------
 
-DWELL_SHOWN = (
-    ("product", "product"),
-    ("oven", "oven"),
-    ("oven_setting", "oven setting"),
-    ("tunnel", "tunnel"),
-    ("tunnel_setting", "tunnel setting"),
-    ("loading", "loading"),
-    ("cook_min", "cook min"),
-    ("chill_min", "chill min"),
-    ("max_belt_speed_m_per_min", "belt ≤ m/min"),
-)
-
-
-def dwell_rich_table(table: pd.DataFrame, *, title: str) -> Table:
-    """The dwell table as a rich table: one row per combination, reason when ruled out.
-
-    Parameters
-    ----------
-    table : pandas.DataFrame
-        Dwell table (columns as in the interface contract).
-    title : str
-        Table title.
-
-    Returns
-    -------
-    rich.table.Table
-        Ready to print.
-    """
-    from optimizer.report import format_cell
-
-    shown = [(c, label) for c, label in DWELL_SHOWN if c in table.columns]
-    out = Table(title=title, title_justify="left", header_style="bold", show_lines=False)
-    for column, label in shown:
-        numeric = pd.api.types.is_numeric_dtype(table[column])
-        out.add_column(label, justify="right" if numeric else "left", no_wrap=True)
-    out.add_column("status", overflow="fold")
-    decimals = {"cook_min": 1, "chill_min": 1, "max_belt_speed_m_per_min": 2}
-    for row in table.itertuples(index=False):
-        record = row._asdict()
-        cells = [format_cell(record[c], decimals.get(c, 2)) for c, _ in shown]
-        feasible = bool(record.get("feasible", True))
-        status = "ok" if feasible else f"ruled out: {record.get('reason', '') or '?'}"
-        style = None if feasible else "dim"
-        out.add_row(*cells, status, style=style)
-    return out
-
 
 def cmd_dwell(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace dwell SCENARIO``: print and write the dwell table."""
-    scenario = load(args.scenario)
+    from optimizer.dwell import render_dwell_table
+
+    scenario = load(args.scenario, args)
     target = out_dir(args, args.scenario)
     table = dwell_table(scenario, args, ui)
     _prepare_out(target)
@@ -415,10 +384,1225 @@ def cmd_dwell(args: argparse.Namespace, ui: Ui) -> int:
             "dwell": table,
         }
     )
-    ui.say(dwell_rich_table(table, title=f"Dwell table — {args.scenario}"))
+    ui.say(render_dwell_table(table, title=f"Dwell table — {args.scenario}"))
     _written(ui, written)
     ui.result(f"{len(table)} rows, {n_ok} feasible, {len(table) - n_ok} ruled out → {target}")
     return EXIT_OK
+
+
+# ---------------------------------------------------------------------------
+# plan
+# ---------------------------------------------------------------------------
+
+
+@dataclass
+class PlanRun:
+    """Everything one plan run produced (for the report, the exports and JSON).
+
+    Parameters
+    ----------
+    path : str
+        Scenario file as given.
+    sha256 : str
+        Hash of the scenario file.
+    scenario : optimizer.scenario.Scenario
+        The validated scenario.
+    dwell : pandas.DataFrame
+        Its dwell table.
+    inputs : optimizer.inputs.PlanInputs
+        Planner inputs.
+    result : optimizer.results.PlanResult
+        The plan (or diagnosis).
+    tables : dict of str to pandas.DataFrame
+        Every table exported and shown in the report.
+    """
+
+    path: str
+    sha256: str
+    scenario: Any
+    dwell: pd.DataFrame
+    inputs: Any
+    result: Any
+    tables: dict[str, pd.DataFrame]
+
+
+def solve_options(args: argparse.Namespace, **overrides: Any) -> Any:
+    """Planner options from the command line (``--time-limit``, ``--gap``, ``--solver``)."""
+    from optimizer.inputs import SolveOptions
+
+    kwargs: dict[str, Any] = {}
+    if getattr(args, "time_limit", None) is not None:
+        kwargs["time_limit_s"] = args.time_limit
+    if getattr(args, "gap", None) is not None:
+        kwargs["gap_rel"] = args.gap
+    if getattr(args, "solver", None):
+        kwargs["solver"] = args.solver
+    kwargs.update(overrides)
+    return SolveOptions(**kwargs)
+
+
+def _rule_text(rule: Any) -> str:
+    """A cook, chill or freeze rule in words."""
+    kind = getattr(rule, "kind", "")
+    parts: list[str] = []
+    if kind == "cook":
+        for h in rule.holds:
+            hold = f" for {h.hold:g} min" if h.hold else ""
+            parts.append(f"core ≥ {h.core_temperature:g} °C{hold}")
+        text = " or ".join(parts)
+        if rule.lethality is not None:
+            leth = rule.lethality
+            extra = (
+                f"{leth.log_reduction:g}-log {leth.organism} "
+                f"(D{leth.t_ref:g} = {leth.d_ref:g} min, z = {leth.z:g} K)"
+            )
+            text = f"{text}; {extra}" if text else extra
+        return text
+    if kind == "chill":
+        for step in rule.steps:
+            parts.append(f"{step.start:g} → {step.end:g} °C within {step.within:g} min")
+        if rule.exit_core_temperature is not None:
+            parts.append(f"core ≤ {rule.exit_core_temperature:g} °C at tunnel exit")
+        return "; ".join(parts)
+    if kind == "freeze":
+        within = f" within {rule.within:g} min of oven exit" if rule.within else ""
+        return f"core ≤ {rule.core_temperature:g} °C at tunnel exit{within}"
+    return str(rule)
+
+
+def rules_table(scenario: Any, products: Sequence[str]) -> pd.DataFrame:
+    """Cook and chill rule of each product with its source.
+
+    Parameters
+    ----------
+    scenario : optimizer.scenario.Scenario
+        The scenario (rules resolved through its rule library).
+    products : sequence of str
+        Products to list.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns product, cook_rule, cook_requirement, cook_source, chill_rule,
+        chill_requirement, chill_source.
+    """
+    rows = []
+    for name in products:
+        product = scenario.product(name)
+        cook = scenario.cook_rule(product)
+        chill = scenario.chill_rule(product)
+        rows.append(
+            {
+                "product": name,
+                "cook_rule": product.cook_rule if isinstance(product.cook_rule, str) else "inline",
+                "cook_requirement": _rule_text(cook),
+                "cook_source": cook.source,
+                "chill_rule": product.chill_rule
+                if isinstance(product.chill_rule, str)
+                else "inline",
+                "chill_requirement": _rule_text(chill),
+                "chill_source": chill.source,
+            }
+        )
+    return pd.DataFrame(
+        rows,
+        columns=[
+            "product",
+            "cook_rule",
+            "cook_requirement",
+            "cook_source",
+            "chill_rule",
+            "chill_requirement",
+            "chill_source",
+        ],
+    )
+
+
+DWELL_KEYS = ["product", "oven", "oven_setting", "tunnel", "tunnel_setting", "loading"]
+
+
+def dwell_used_table(dwell: pd.DataFrame, result: Any) -> pd.DataFrame:
+    """The dwell-table rows behind the plan's tunnel runs (one per combination used)."""
+    used = {
+        (r.product, r.oven, r.oven_setting, r.tunnel, r.tunnel_setting, r.loading)
+        for r in result.runs
+    }
+    if not used or dwell.empty:
+        return dwell.iloc[0:0][[c for c in dwell.columns if c in _DWELL_USED_COLUMNS]]
+    keys = list(zip(*(dwell[c] for c in DWELL_KEYS), strict=True))
+    mask = [k in used for k in keys]
+    columns = [c for c in _DWELL_USED_COLUMNS if c in dwell.columns]
+    return dwell.loc[mask, columns].sort_values(DWELL_KEYS).reset_index(drop=True)
+
+
+_DWELL_USED_COLUMNS = (
+    *DWELL_KEYS,
+    "cook_min",
+    "cook_binding",
+    "cook_method",
+    "chill_min",
+    "chill_binding",
+    "chill_method",
+    "max_belt_speed_m_per_min",
+    "heat_in_kj_per_kg",
+    "heat_out_kj_per_kg",
+)
+
+
+def _first_crossing(t: Any, y: Any, level: float, *, below: bool, after: float = 0.0) -> float:
+    """First time [same unit as t] at or after ``after`` that ``y`` is at/below (or above)
+    ``level``, interpolated linearly; NaN when it never is."""
+    import numpy as np
+
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(y, dtype=float)
+    ok = (y <= level) if below else (y >= level)
+    ok &= t >= after
+    idx = np.flatnonzero(ok)
+    if idx.size == 0:
+        return float("nan")
+    i = int(idx[0])
+    if i == 0 or t[i - 1] < after or ok[i - 1]:
+        return float(max(t[i], after)) if t[i] >= after else float(after)
+    t0, t1, y0, y1 = t[i - 1], t[i], y[i - 1], y[i]
+    if y1 == y0:
+        return float(t1)
+    return float(t0 + (level - y0) * (t1 - t0) / (y1 - y0))
+
+
+def _rule_marks(
+    cook: Any,
+    chill: Any,
+    times_min: Any,
+    core: Any,
+    oven_end: float,
+    tunnel_start: float,
+    tunnel_end: float,
+) -> list[Any]:
+    """Rule targets and windows to draw on a product's temperature plot [min, °C]."""
+    from optimizer.report import RuleMark
+
+    marks = []
+    for h in cook.holds:
+        hold = f", {h.hold:g} min hold" if h.hold else ""
+        marks.append(
+            RuleMark(
+                f"cook: core ≥ {h.core_temperature:g} °C{hold}",
+                h.core_temperature,
+                0.0,
+                oven_end,
+                _first_crossing(times_min, core, h.core_temperature, below=False),
+            )
+        )
+    kind = getattr(chill, "kind", "")
+    if kind == "chill":
+        for step in chill.steps:
+            opens = _first_crossing(times_min, core, step.start, below=True, after=oven_end)
+            if opens != opens:  # never falls to the opening temperature in the history
+                opens = oven_end
+            marks.append(
+                RuleMark(
+                    f"core ≤ {step.end:g} °C within {step.within:g} min of {step.start:g} °C",
+                    step.end,
+                    opens,
+                    opens + step.within,
+                    _first_crossing(times_min, core, step.end, below=True, after=opens),
+                )
+            )
+        if chill.exit_core_temperature is not None:
+            marks.append(
+                RuleMark(
+                    f"core ≤ {chill.exit_core_temperature:g} °C at tunnel exit",
+                    chill.exit_core_temperature,
+                    tunnel_start,
+                    None,
+                    _first_crossing(
+                        times_min, core, chill.exit_core_temperature, below=True, after=oven_end
+                    ),
+                )
+            )
+    elif kind == "freeze":
+        marks.append(
+            RuleMark(
+                f"core ≤ {chill.core_temperature:g} °C at tunnel exit",
+                chill.core_temperature,
+                tunnel_start,
+                oven_end + chill.within if chill.within else None,
+                _first_crossing(
+                    times_min, core, chill.core_temperature, below=True, after=oven_end
+                ),
+            )
+        )
+    return marks
+
+
+def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
+    """Core and surface histories of each planned product at its main planned route.
+
+    For every product in the plan, the tunnel run carrying the most kg
+    (ties: the first in key order) gives the route: oven and setting, tunnel,
+    setting, loading and belt speed. The largest piece is simulated through
+    the oven for the dwell-table cook time (margin included), the tunnel's
+    transfer stage, and the tunnel zones for the residence the planned belt
+    speed gives (tunnel length / speed), with :func:`thermal.process.run_stages`
+    — the same conversions from the scenario as the dwell table
+    (:mod:`optimizer.dwell`).
+
+    Parameters
+    ----------
+    run : PlanRun
+        A plan run with a plan.
+
+    Returns
+    -------
+    list of (product, CurveSet, caption)
+        One entry per planned product, in product order.
+    """
+    if not run.result.status.has_plan or not run.result.runs:
+        return []
+    import numpy as np
+
+    from optimizer import dwell as dw
+    from optimizer.report import CurveSet, Stage
+    from thermal import lethality, process
+
+    scenario = run.scenario
+    kg: dict[tuple[str, ...], float] = {}
+    speed: dict[tuple[str, ...], float] = {}
+    for r in run.result.runs:
+        key = (r.product, r.oven, r.oven_setting, r.tunnel, r.tunnel_setting, r.loading)
+        kg[key] = kg.get(key, 0.0) + r.kg
+        speed[key] = r.belt_speed_m_per_min
+    best: dict[str, tuple[str, ...]] = {}
+    for key in sorted(kg):
+        if key[0] not in best or kg[key] > kg[best[key[0]]]:
+            best[key[0]] = key
+    table = run.dwell.set_index(DWELL_KEYS)
+    out = []
+    for name in sorted(best):
+        key = best[name]
+        _, oven_name, oset_name, tunnel_name, tset_name, loading_name = key
+        product = scenario.product(name)
+        oven = scenario.oven(oven_name)
+        oset = next(s for s in oven.settings if s.name == oset_name)
+        tunnel = scenario.tunnel(tunnel_name)
+        tset = next(s for s in tunnel.settings if s.name == tset_name)
+        loading = next(x for x in tunnel.loadings if x.name == loading_name)
+        cook_min = float(table.loc[key, "cook_min"])
+        residence_min = tunnel.length / speed[key]
+        factor = dw._loading_factor(loading)
+        transfer = (
+            dw._transfer(tunnel.transfer, tunnel.transfer.duration)
+            if tunnel.transfer is not None
+            else None
+        )
+        hist_oven, profile = process.run_stages(
+            dw.thermal_product(product, emissivity=oset.emissivity),
+            product.initial_temperature,
+            process.OvenStage(dw.air_setting(oset)),
+            cook_min * 60.0,
+        )
+        hist_tunnel, _ = process.run_stages(
+            dw.thermal_product(product),
+            profile,
+            None,
+            0.0,
+            transfer,
+            dw.tunnel_zones(tunnel, tset, factor),
+            residence_min * 60.0,
+        )
+        hist = hist_oven.then(hist_tunnel)
+        t_min = np.asarray(hist.times, dtype=float) / 60.0
+        stages = []
+        for span in hist.stages:
+            stages.append(
+                Stage(span.name, span.start / 60.0, span.end / 60.0, float(span.air_temperature))
+            )
+        oven_end = cook_min
+        tunnel_start = next((st.start for st in stages if st.name.startswith("zone")), oven_end)
+        cook = scenario.cook_rule(product)
+        chill = scenario.chill_rule(product)
+        marks = _rule_marks(cook, chill, t_min, hist.core, oven_end, tunnel_start, float(t_min[-1]))
+        caption = (
+            f"{name}, largest piece: {oven_name} at {oset_name} for {cook_min:.1f} min, "
+            f"{tunnel_name} at {tset_name}, loading {loading_name}, belt "
+            f"{speed[key]:.2f} m/min ({residence_min:.1f} min in the tunnel). "
+            f"Core at tunnel exit {float(hist.core[-1]):.1f} °C."
+        )
+        if cook.lethality is not None:
+            leth = cook.lethality
+            achieved = float(
+                lethality.log_reduction(
+                    hist_oven.times, hist_oven.core, leth.d_ref * 60.0, leth.t_ref, leth.z
+                )
+            )
+            caption += (
+                f" {leth.organism}: {achieved:.1f} log reduction in the oven "
+                f"(rule: {leth.log_reduction:g})."
+            )
+        title = f"{name} — {oven_name}/{oset_name} → {tunnel_name}/{tset_name}/{loading_name}"
+        curve = CurveSet(
+            title, t_min, hist.core, hist.surface, tuple(stages), tuple(marks), mean=hist.mean
+        )
+        out.append((name, curve, caption))
+    return out
+
+
+_SHAPE_CORRELATIONS = {
+    "slab": ("flat_plate",),
+    "block": ("flat_plate",),
+    "cylinder": ("cylinder_churchill_bernstein",),
+    "finite_cylinder": ("cylinder_churchill_bernstein",),
+    "sphere": ("sphere_whitaker",),
+}
+
+
+def methods_used(dwell: pd.DataFrame, scenario: Any) -> list[tuple[str, str]]:
+    """The published methods behind a run's figures, with their sources.
+
+    Parameters
+    ----------
+    dwell : pandas.DataFrame
+        The dwell table (``cook_method``/``chill_method`` say which
+        conduction solution each row used).
+    scenario : optimizer.scenario.Scenario
+        The scenario (shapes of the products, measured coefficients).
+
+    Returns
+    -------
+    list of (str, str)
+        Method and its source, in the order the calculation uses them.
+    """
+    methods: list[tuple[str, str]] = []
+    used = set()
+    for column in ("cook_method", "chill_method"):
+        if column in dwell.columns:
+            used |= set(dwell[column].dropna().astype(str))
+    methods.append(
+        (
+            "Food properties from composition (component equations, mixture rules, ice "
+            "fraction below the initial freezing point)",
+            "Choi & Okos (1986); ASHRAE Handbook — Refrigeration, chapter 'Thermal Properties "
+            "of Foods'; Schwartzberg (1976), J. Food Sci. 41, 152; Pham (1996), J. Food Eng. "
+            "30, 95",
+        )
+    )
+    methods.append(
+        (
+            "Air properties versus temperature and humidity",
+            "Lemmon & Jacobsen (2004) for dry air; IAPWS formulations for water vapour; "
+            "Wilke and Mason–Saxena mixing rules",
+        )
+    )
+    try:
+        from thermal.convection import CORRELATIONS
+    except ImportError:  # pragma: no cover - part of the package
+        CORRELATIONS = {}
+    shapes = {getattr(p.geometry, "shape", "") for p in getattr(scenario, "products", [])}
+    keys = sorted({k for shape in shapes for k in _SHAPE_CORRELATIONS.get(shape, ())})
+    for key in keys:
+        if key in CORRELATIONS:
+            entry = CORRELATIONS[key]
+            methods.append((f"Surface coefficient: {entry.name}", entry.reference))
+    measured = any(
+        getattr(s, "measured_h", None) is not None
+        for unit in [*getattr(scenario, "ovens", []), *getattr(scenario, "tunnels", [])]
+        for s in getattr(unit, "settings", [])
+    )
+    if measured:
+        methods.append(
+            (
+                "Surface coefficient measured at the plant (air settings with measured_h)",
+                "the plant's own measurement, as entered in the scenario",
+            )
+        )
+    if "series" in used or not used:
+        methods.append(
+            (
+                "Transient conduction, exact series solutions (slab, cylinder, sphere) and "
+                "product solutions (finite cylinder, block)",
+                "Incropera, DeWitt, Bergman & Lavine, Fundamentals of Heat and Mass Transfer, "
+                "6th ed., §5.5–5.8; Carslaw & Jaeger, Conduction of Heat in Solids, 2nd ed. "
+                "(1959)",
+            )
+        )
+    if "numeric" in used or not used:
+        methods.append(
+            (
+                "Transient conduction, finite-volume solution with an enthalpy formulation "
+                "(phase change, changing air, any starting profile)",
+                "Patankar (1980), Numerical Heat Transfer and Fluid Flow; Swaminathan & "
+                "Voller (1992), Metall. Trans. B 23, 651; Voller (1990), Numer. Heat "
+                "Transfer B 17, 155",
+            )
+        )
+    methods.append(
+        (
+            "Lethality along the core history (F-value, log reduction with D- and z-values)",
+            "Bigelow (1921), J. Infect. Dis. 29, 528; Ball (1923), Bull. Natl. Res. Counc. "
+            "7(37); Stumbo (1973), Thermobacteriology in Food Processing, 2nd ed.",
+        )
+    )
+    methods.append(
+        (
+            "Shift plan as a mixed-integer linear programme; shadow prices from the linear "
+            "programme with the on/off choices fixed",
+            "HiGHS solver: Huangfu & Hall (2018), Math. Prog. Comp. 10, 119; "
+            "modelled with PuLP (Mitchell, O'Sullivan & Dunning, 2011)",
+        )
+    )
+    return methods
+
+
+def quiet_solver_banner() -> None:
+    """Let HiGHS print its one-time start-up banner into /dev/null, not our stdout.
+
+    highspy writes a banner straight to file descriptor 1 the first time a
+    solver object is created in a process, bypassing ``sys.stdout``; that
+    would corrupt ``--json`` output and clutter the summary. Creating the
+    first object here, with descriptor 1 pointed at /dev/null, uses the
+    banner up. Later solver objects print nothing unless asked to.
+    """
+    try:
+        import highspy
+    except ImportError:  # pragma: no cover - a declared dependency
+        return
+    sys.stdout.flush()
+    saved = os.dup(1)
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(devnull, 1)
+        highspy.Highs()
+    finally:
+        os.dup2(saved, 1)
+        os.close(saved)
+        os.close(devnull)
+
+
+def run_plan(path: str, scenario: Any, args: argparse.Namespace, ui: Ui) -> PlanRun:
+    """Dwell table, planner inputs and the solve for one validated scenario."""
+    from optimizer.adapter import plan_inputs
+    from optimizer.results import plan_tables
+    from optimizer.solve import plan
+
+    dwell = dwell_table(scenario, args, ui)
+    inputs = plan_inputs(scenario, dwell)
+    options = solve_options(args)
+    quiet_solver_banner()
+    with ui.status(f"solving the plan ({path})"):
+        result = plan(inputs, options)
+    tables = dict(plan_tables(result))
+    planned = sorted({o.product for o in inputs.orders})
+    tables["rules"] = rules_table(scenario, planned)
+    tables["dwell_used"] = dwell_used_table(dwell, result)
+    return PlanRun(path, file_sha256(path), scenario, dwell, inputs, result, tables)
+
+
+def _status_code(result: Any) -> int:
+    from optimizer.results import SolveStatus
+
+    if result.status.has_plan:
+        return EXIT_OK
+    if result.status in (SolveStatus.INFEASIBLE, SolveStatus.NO_SOLUTION_IN_TIME):
+        return EXIT_NO_PLAN
+    return EXIT_INTERNAL
+
+
+def _bottleneck_json(result: Any) -> dict[str, Any] | None:
+    from optimizer.results import bottleneck
+
+    bn = bottleneck(result)
+    return None if bn is None else export.to_jsonable(bn)
+
+
+def plan_json(run: PlanRun, files: Sequence[Path]) -> dict[str, Any]:
+    """The machine-readable summary of a plan run (``--json``)."""
+    r = run.result
+    return {
+        "scenario": run.path,
+        "scenario_sha256": run.sha256,
+        "tool_version": tool_version(),
+        "status": r.status.value,
+        "objective": r.objective.value,
+        "objective_value": r.objective_value,
+        "objective_unit": r.objective_unit,
+        "best_bound": r.best_bound,
+        "gap": r.gap,
+        "solver": r.solver,
+        "total_kg": r.total_kg,
+        "bottleneck": _bottleneck_json(r),
+        "shortfalls": [s.message for s in r.shortfalls],
+        "excluded": {k: list(v) for k, v in r.excluded.items()},
+        "messages": list(r.messages),
+        "files": [str(p) for p in files],
+        "tables": {name: export.table_records(t) for name, t in run.tables.items()},
+    }
+
+
+def _run_info(run: PlanRun, argv_text: str) -> Any:
+    from datetime import UTC, datetime
+
+    from optimizer.report import RunInfo
+
+    return RunInfo(
+        scenario_path=run.path,
+        scenario_sha256=run.sha256,
+        tool_version=tool_version(),
+        generated=datetime.now(UTC).strftime("%Y-%m-%d %H:%M UTC"),
+        plant=getattr(run.scenario, "plant", Path(run.path).stem),
+        command=argv_text,
+    )
+
+
+def write_plan_outputs(run: PlanRun, target: Path, argv_text: str) -> list[Path]:
+    """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report."""
+    from optimizer.report import plan_report
+
+    protect = [run.path]
+    written = export.write_tables(target, run.tables, workbook="plan.xlsx", protect=protect)
+    written.append(export.write_csv(target / "dwell.csv", run.dwell, protect=protect))
+    html_text = plan_report(
+        run.result,
+        run.inputs,
+        run.tables,
+        info=_run_info(run, argv_text),
+        curves=temperature_curves(run),
+        methods=methods_used(run.dwell, run.scenario),
+    )
+    written.append(export.atomic_write_text(target / "report.html", html_text, protect=protect))
+    written.append(
+        export.write_json(target / "plan.json", plan_json(run, written), protect=protect)
+    )
+    return written
+
+
+def plan_summary(run: PlanRun, ui: Ui) -> None:
+    """Print the plan's summary and its tables readably."""
+    from optimizer.results import summary_text
+
+    r = run.result
+    ui.say(summary_text(r))
+    if r.status.has_plan:
+        ui.say(rich_table(run.tables["totals"], title="kg per product and shift"))
+        ui.say(rich_table(run.tables["ovens"], title="Oven batches"))
+        ui.say(rich_table(run.tables["tunnels"], title="Tunnel runs"))
+
+
+def rich_table(table: pd.DataFrame, *, title: str) -> Table:
+    """Any table as a rich table (numbers right-aligned, rounded for reading)."""
+    from optimizer.report import format_cell
+
+    out = Table(title=title, title_justify="left", header_style="bold")
+    numeric = {c: pd.api.types.is_numeric_dtype(table[c]) for c in table.columns}
+    for c in table.columns:
+        out.add_column(str(c), justify="right" if numeric[c] else "left")
+    for row in table.itertuples(index=False, name=None):
+        out.add_row(*(format_cell(v, 1) for v in row))
+    return out
+
+
+def _argv_text(argv: Sequence[str] | None) -> str:
+    items = list(sys.argv[1:] if argv is None else argv)
+    return " ".join(["corepace", *items])
+
+
+def cmd_plan(args: argparse.Namespace, ui: Ui) -> int:
+    """``corepace plan SCENARIO``: the shift plan, its tables and its report."""
+    scenario = load(args.scenario, args)
+    target = out_dir(args, args.scenario)
+    run = run_plan(args.scenario, scenario, args, ui)
+    _prepare_out(target)
+    with ui.status("writing the report"):
+        written = write_plan_outputs(run, target, args.argv_text)
+    ui.emit_json(plan_json(run, written))
+    plan_summary(run, ui)
+    _written(ui, written)
+    code = _status_code(run.result)
+    r = run.result
+    if code == EXIT_OK:
+        ui.result(
+            f"{r.status.value}: {r.total_kg:,.0f} kg over {len(r.shifts)} shift(s) → {target}"
+        )
+    else:
+        for s in r.shortfalls:
+            if not ui.human or ui.quiet:
+                ui.problem(f"shortfall: {s.message}")
+        ui.result(f"no feasible plan ({r.status.value}); diagnosis in {target / 'report.html'}")
+    return code
+
+
+# ---------------------------------------------------------------------------
+# capacity
+# ---------------------------------------------------------------------------
+
+CAPACITY_TOLERANCE = 0.005
+"""Relative width [-] at which the capacity search stops."""
+
+
+def parse_mix(texts: Sequence[str], known: Sequence[str]) -> dict[str, float]:
+    """Read ``--mix`` values (``NAME=SHARE``, comma separated or repeated) into shares.
+
+    Parameters
+    ----------
+    texts : sequence of str
+        Option values, e.g. ``["pork-sausage=2,ham-log=1"]``.
+    known : sequence of str
+        Product names of the scenario.
+
+    Returns
+    -------
+    dict of str to float
+        Product → share, the shares summing to 1.
+
+    Raises
+    ------
+    BadInput
+        Listing every malformed item, unknown product and bad share.
+    """
+    raw: dict[str, float] = {}
+    problems = []
+    for text in texts:
+        for item in text.split(","):
+            item = item.strip()
+            if not item:
+                continue
+            name, sep, share = item.rpartition("=")
+            name = name.strip()
+            if not sep or not name:
+                problems.append(f"--mix: expected PRODUCT=SHARE such as ham-log=2, got {item!r}")
+                continue
+            if name not in known:
+                problems.append(
+                    f"--mix: {name!r} is not a product; known: {', '.join(sorted(known))}"
+                )
+                continue
+            try:
+                value = float(share)
+            except ValueError:
+                problems.append(f"--mix {name}: share must be a number >= 0, got {share!r}")
+                continue
+            if not value >= 0 or value == float("inf"):
+                problems.append(f"--mix {name}: share must be a finite number >= 0, got {share!r}")
+                continue
+            raw[name] = raw.get(name, 0.0) + value
+    if not problems and raw and sum(raw.values()) <= 0:
+        problems.append("--mix: at least one share must be > 0")
+    if problems:
+        raise BadInput(problems)
+    total = sum(raw.values())
+    return {k: v / total for k, v in raw.items() if v > 0}
+
+
+def default_mix(inputs: Any) -> tuple[dict[str, float], str]:
+    """The mix when ``--mix`` is not given: the orders' proportions, else equal shares.
+
+    Returns
+    -------
+    tuple of (dict of str to float, str)
+        Shares summing to 1, and where they came from.
+    """
+    by_min: dict[str, float] = {}
+    by_max: dict[str, float] = {}
+    for o in inputs.orders:
+        by_min[o.product] = by_min.get(o.product, 0.0) + o.min_kg
+        by_max[o.product] = by_max.get(o.product, 0.0) + o.max_kg
+    if sum(by_min.values()) > 0:
+        total = sum(by_min.values())
+        return {k: v / total for k, v in by_min.items() if v > 0}, "order minimums"
+    finite = {k: v for k, v in by_max.items() if 0 < v < float("inf")}
+    if finite and len(finite) == len(by_max):
+        total = sum(finite.values())
+        return {k: v / total for k, v in finite.items()}, "order maximums"
+    names = sorted(by_max)
+    return {k: 1.0 / len(names) for k in names}, "equal shares of the ordered products"
+
+
+def _mix_inputs(inputs: Any, shares: Mapping[str, float], total_kg: float | None) -> Any:
+    """Inputs whose only orders are the mix at ``total_kg`` (None: as much as fits)."""
+    import dataclasses
+    import math
+
+    from optimizer.inputs import Objective, OrderData
+
+    orders = tuple(
+        OrderData(
+            product=p,
+            min_kg=0.0 if total_kg is None else share * total_kg,
+            max_kg=math.inf if total_kg is None else share * total_kg,
+            name=f"mix {p}",
+        )
+        for p, share in sorted(shares.items())
+    )
+    return dataclasses.replace(
+        inputs, orders=orders, objective=Objective.MOST_KG, fixed_output_kg=None
+    )
+
+
+@dataclass
+class CapacityResult:
+    """The most a plant makes with a fixed product mix.
+
+    Parameters
+    ----------
+    shares : dict of str to float
+        Mix proportions (sum 1).
+    mix_source : str
+        Where the shares came from.
+    total_kg : float
+        Most kg over the scenario's shifts with that mix [kg].
+    horizon_hours : float
+        Hours of the scenario's shifts [h].
+    kg_per_hour : float
+        ``total_kg / horizon_hours`` [kg/h].
+    kg_per_week : float
+        ``total_kg / shifts * shifts_per_week`` [kg/week].
+    shifts_per_week : float
+        Shifts a week assumed [-].
+    free_mix_kg : float
+        Most kg over the horizon when the mix may change freely [kg] (the
+        search's upper end).
+    solves : int
+        Plans solved in the search [-].
+    plan : optimizer.results.PlanResult
+        The plan at ``total_kg`` (with utilisation and shadow prices).
+    limit : optimizer.results.PlanResult or None
+        The diagnosis just above ``total_kg`` (what runs out first).
+    """
+
+    shares: dict[str, float]
+    mix_source: str
+    total_kg: float
+    horizon_hours: float
+    kg_per_hour: float
+    kg_per_week: float
+    shifts_per_week: float
+    free_mix_kg: float
+    solves: int
+    plan: Any
+    limit: Any
+
+
+def max_mix_capacity(
+    inputs: Any,
+    shares: Mapping[str, float],
+    options: Any,
+    *,
+    shifts_per_week: float,
+    mix_source: str,
+    tolerance: float = CAPACITY_TOLERANCE,
+) -> CapacityResult:
+    """Most kg with fixed mix proportions, by bisection on the total.
+
+    The planner is asked for the most kg with the mix free (an upper end
+    ``U``); then each step fixes every product's kg to its share of a trial
+    total ``X`` (order minimum = maximum = share × X) and asks whether a plan
+    exists. Feasibility is monotone in ``X`` because batches may be loaded
+    below their pattern and tunnel minutes fall with kg, so bisection on
+    ``[0, U]`` converges to the largest feasible total within ``tolerance``
+    (relative). A final solve at that total gives utilisation and shadow
+    prices; one just above it, with the elastic diagnosis, names what runs
+    out first.
+
+    Parameters
+    ----------
+    inputs : optimizer.inputs.PlanInputs
+        Planner inputs of the scenario.
+    shares : mapping of str to float
+        Product → share (sum 1).
+    options : optimizer.inputs.SolveOptions
+        Solver options for every solve.
+    shifts_per_week : float
+        Shifts a week, for kg per week [-].
+    mix_source : str
+        Where the shares came from (for the report).
+    tolerance : float
+        Relative search width at which to stop [-].
+
+    Returns
+    -------
+    CapacityResult
+        The capacity and the plans behind it.
+    """
+    import dataclasses
+
+    from optimizer.solve import plan
+
+    quick = dataclasses.replace(options, shadow_prices=False, diagnose=False)
+    solves = 0
+    free = plan(_mix_inputs(inputs, shares, None), quick)
+    solves += 1
+    upper = free.total_kg if free.status.has_plan else 0.0
+    low, high = 0.0, upper
+    if upper > 0:
+        if plan(_mix_inputs(inputs, shares, upper), quick).status.has_plan:
+            low = upper
+        solves += 1
+        while high - low > tolerance * high:
+            mid = 0.5 * (low + high)
+            solves += 1
+            if plan(_mix_inputs(inputs, shares, mid), quick).status.has_plan:
+                low = mid
+            else:
+                high = mid
+    final = plan(_mix_inputs(inputs, shares, low), options)
+    solves += 1
+    limit = None
+    if high > low or low == 0:
+        probe = high if high > low else max(upper, 1.0)
+        limit = plan(_mix_inputs(inputs, shares, probe), options)
+        solves += 1
+        if limit.status.has_plan:
+            limit = None
+    hours = sum(s.minutes for s in inputs.shifts) / 60.0
+    n = len(inputs.shifts)
+    return CapacityResult(
+        shares=dict(shares),
+        mix_source=mix_source,
+        total_kg=low,
+        horizon_hours=hours,
+        kg_per_hour=low / hours if hours > 0 else 0.0,
+        kg_per_week=low / n * shifts_per_week if n else 0.0,
+        shifts_per_week=shifts_per_week,
+        free_mix_kg=upper,
+        solves=solves,
+        plan=final,
+        limit=limit,
+    )
+
+
+def capacity_tables(cap: CapacityResult) -> dict[str, pd.DataFrame]:
+    """Tables of a capacity run: the mix, the limits, and the plan at capacity."""
+    from optimizer.results import plan_tables
+
+    mix = pd.DataFrame(
+        [
+            {
+                "product": p,
+                "share": share,
+                "kg": share * cap.total_kg,
+                "kg_per_hour": share * cap.kg_per_hour,
+                "kg_per_week": share * cap.kg_per_week,
+            }
+            for p, share in sorted(cap.shares.items())
+        ],
+        columns=["product", "share", "kg", "kg_per_hour", "kg_per_week"],
+    )
+    limits = (
+        pd.DataFrame(
+            [
+                (s.kind, s.subject, s.shift, s.amount, s.unit, s.message)
+                for s in cap.limit.shortfalls
+            ],
+            columns=["kind", "subject", "shift", "amount", "unit", "message"],
+        )
+        if cap.limit is not None
+        else pd.DataFrame(columns=["kind", "subject", "shift", "amount", "unit", "message"])
+    )
+    tables = {"capacity_mix": mix, "capacity_limits": limits}
+    tables.update(plan_tables(cap.plan))
+    return tables
+
+
+def capacity_json(path: str, cap: CapacityResult, tables: Mapping[str, pd.DataFrame], files):
+    """The machine-readable result of ``corepace capacity``."""
+    return {
+        "scenario": path,
+        "scenario_sha256": file_sha256(path),
+        "mix": cap.shares,
+        "mix_source": cap.mix_source,
+        "total_kg": cap.total_kg,
+        "horizon_hours": cap.horizon_hours,
+        "kg_per_hour": cap.kg_per_hour,
+        "kg_per_week": cap.kg_per_week,
+        "shifts_per_week": cap.shifts_per_week,
+        "free_mix_kg": cap.free_mix_kg,
+        "solves": cap.solves,
+        "bottleneck": _bottleneck_json(cap.plan),
+        "limits": [s.message for s in cap.limit.shortfalls] if cap.limit is not None else [],
+        "files": [str(p) for p in files],
+        "tables": {name: export.table_records(t) for name, t in tables.items()},
+    }
+
+
+def cmd_capacity(args: argparse.Namespace, ui: Ui) -> int:
+    """``corepace capacity SCENARIO``: most kg per hour and week for a fixed mix."""
+    from optimizer.adapter import plan_inputs
+    from optimizer.results import bottleneck
+
+    scenario = load(args.scenario, args)
+    names = [p.name for p in scenario.products]
+    shares = parse_mix(args.mix, names) if args.mix else None
+    if args.shifts_per_week is not None and not args.shifts_per_week > 0:
+        raise BadInput([f"--shifts-per-week: must be > 0, got {args.shifts_per_week:g}"])
+    target = out_dir(args, args.scenario)
+    dwell = dwell_table(scenario, args, ui)
+    inputs = plan_inputs(scenario, dwell)
+    source = "--mix"
+    if shares is None:
+        shares, source = default_mix(inputs)
+    per_week = args.shifts_per_week if args.shifts_per_week is not None else 15.0
+    quiet_solver_banner()
+    with ui.status("searching the most kg with the mix fixed"):
+        cap = max_mix_capacity(
+            inputs, shares, solve_options(args), shifts_per_week=per_week, mix_source=source
+        )
+    tables = capacity_tables(cap)
+    _prepare_out(target)
+    protect = [args.scenario]
+    written = export.write_tables(target, tables, workbook="capacity.xlsx", protect=protect)
+    html_text = capacity_report(args.scenario, scenario, cap, tables, args.argv_text)
+    written.append(export.atomic_write_text(target / "capacity.html", html_text, protect=protect))
+    data = capacity_json(args.scenario, cap, tables, written)
+    written.append(export.write_json(target / "capacity.json", data, protect=protect))
+    data["files"] = [str(p) for p in written]
+    ui.emit_json(data)
+    ui.say(rich_table(tables["capacity_mix"], title=f"Mix ({source})"))
+    bn = bottleneck(cap.plan)
+    if bn is not None:
+        ui.say(
+            f"Limited by {bn.kind} {bn.machine}: mean utilisation {100 * bn.utilisation:.0f} % "
+            f"({bn.reason})"
+        )
+    if cap.limit is not None:
+        ui.say("Just above this total the plan runs out of:")
+        for s in cap.limit.shortfalls:
+            ui.say(f"  - {s.message}")
+    _written(ui, written)
+    if cap.total_kg <= 0:
+        for p, reasons in cap.plan.excluded.items():
+            ui.problem(f"{p} cannot be made on this plant: {'; '.join(reasons)}")
+        ui.result("no feasible plan with this mix: capacity 0 kg")
+        return EXIT_NO_PLAN
+    ui.result(
+        f"capacity with this mix: {cap.kg_per_hour:,.0f} kg/h, {cap.kg_per_week:,.0f} kg/week "
+        f"({cap.total_kg:,.0f} kg over {len(inputs.shifts)} shift(s), "
+        f"{per_week:g} shifts/week) → {target}"
+    )
+    return EXIT_OK
+
+
+def capacity_report(
+    path: str, scenario: Any, cap: CapacityResult, tables: Mapping[str, pd.DataFrame], command: str
+) -> str:
+    """The HTML page of a capacity run."""
+    from datetime import UTC, datetime
+
+    from optimizer.report import SAFETY_CAUTION, HtmlReport, utilisation_figure
+    from optimizer.results import bottleneck
+
+    plant = getattr(scenario, "plant", Path(path).stem)
+    report = HtmlReport(
+        f"Capacity with a fixed mix — {plant}",
+        f"Scenario {path} · made {datetime.now(UTC).strftime('%Y-%m-%d %H:%M UTC')}",
+    )
+    report.caution("Food safety", SAFETY_CAUTION)
+    report.section("Capacity")
+    bn = bottleneck(cap.plan)
+    pairs: list[tuple[str, Any]] = [
+        ("most kg per hour", f"{cap.kg_per_hour:,.0f} kg/h"),
+        ("most kg per week", f"{cap.kg_per_week:,.0f} kg ({cap.shifts_per_week:g} shifts)"),
+        ("over the scenario's shifts", f"{cap.total_kg:,.0f} kg in {cap.horizon_hours:g} h"),
+        ("with the mix free", f"{cap.free_mix_kg:,.0f} kg"),
+        ("mix from", cap.mix_source),
+    ]
+    if bn is not None:
+        pairs.append(("limited by", f"{bn.kind} {bn.machine} ({100 * bn.utilisation:.0f} % used)"))
+    report.key_values(pairs)
+    report.paragraph(
+        "Method: the most kg with the product proportions fixed, found by bisection on the "
+        f"total ({cap.solves} plans solved, stopped within {100 * CAPACITY_TOLERANCE:g} %). "
+        "kg per hour is over the shifts' available hours; kg per week assumes the "
+        "scenario's shifts repeat."
+    )
+    report.table(
+        "capacity_mix",
+        tables["capacity_mix"],
+        caption="Mix and capacity per product",
+        percent=("share",),
+    )
+    report.section("What limits it")
+    if cap.limit is not None and cap.limit.shortfalls:
+        report.bullets(s.message for s in cap.limit.shortfalls)
+    report.table(
+        "capacity_limits",
+        tables["capacity_limits"],
+        caption="Shortfalls just above the capacity (elastic re-solve)",
+        empty_text="none: the capacity is the most the mix allows",
+    )
+    util = tables["utilisation"]
+    if not util.empty:
+        report.figure(
+            utilisation_figure(util),
+            caption="Machine utilisation at capacity.",
+            alt="utilisation at capacity",
+            name="utilisation",
+        )
+    report.table("utilisation", util, caption="Utilisation at capacity", percent=("utilisation",))
+    report.table("ovens", tables["ovens"], caption="Oven batches at capacity")
+    report.table("tunnels", tables["tunnels"], caption="Tunnel runs at capacity")
+    report.footer("scenario", path)
+    report.footer("scenario sha256", file_sha256(path))
+    report.footer("corepace version", tool_version())
+    report.footer("command", command)
+    return report.render()
+
+
+# ---------------------------------------------------------------------------
+# compare
+# ---------------------------------------------------------------------------
+
+
+def _labels(paths: Sequence[str]) -> list[str]:
+    stems = [Path(p).stem for p in paths]
+    if len(set(stems)) == len(stems):
+        return stems
+    return [str(p) for p in paths]
+
+
+def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFrame:
+    """Side-by-side figures of several plan runs: one row per figure, one column per scenario.
+
+    Rows: status, objective value, total kg, mean kg per shift, kg of each
+    product, mean utilisation of each machine, the bottleneck and its shadow
+    price, solve seconds. Values are strings or numbers; a product or machine
+    a scenario does not have is empty.
+    """
+    from optimizer.results import bottleneck
+
+    products = sorted({r.product for run in runs for r in run.result.runs})
+    machines = list(dict.fromkeys(u.machine for run in runs for u in run.result.machine_use))
+    rows: list[tuple[str, str, list[Any]]] = []
+
+    def add(figure: str, unit: str, values: list[Any]) -> None:
+        rows.append((figure, unit, values))
+
+    add("status", "", [run.result.status.value for run in runs])
+    add("objective", "", [run.result.objective.value for run in runs])
+    add("objective value", "", [run.result.objective_value for run in runs])
+    add("total kg", "kg", [run.result.total_kg for run in runs])
+    add(
+        "mean kg per shift",
+        "kg",
+        [run.result.total_kg / max(len(run.result.shifts), 1) for run in runs],
+    )
+    for p in products:
+        add(f"kg {p}", "kg", [sum(r.kg for r in run.result.runs if r.product == p) for run in runs])
+    for m in machines:
+        values = []
+        for run in runs:
+            uses = [u.utilisation for u in run.result.machine_use if u.machine == m]
+            values.append(sum(uses) / len(uses) if uses else None)
+        add(f"utilisation {m}", "-", values)
+    bns = [bottleneck(run.result) for run in runs]
+    add("bottleneck", "", [f"{b.kind} {b.machine}" if b else "" for b in bns])
+    add(
+        "bottleneck shadow price",
+        "per extra hour",
+        [b.per_hour if b else None for b in bns],
+    )
+    add("solve seconds", "s", [run.result.build_seconds + run.result.solve_seconds for run in runs])
+    data = {"figure": [r[0] for r in rows], "unit": [r[1] for r in rows]}
+    for i, label in enumerate(labels):
+        data[label] = [r[2][i] for r in rows]
+    return pd.DataFrame(data).astype({label: object for label in labels})
+
+
+def compare_report(
+    runs: Sequence[PlanRun], labels: Sequence[str], table: pd.DataFrame, command: str
+) -> str:
+    """The HTML page comparing several scenarios."""
+    from datetime import UTC, datetime
+
+    from matplotlib.figure import Figure
+
+    from optimizer.report import BAR_COLOURS, SAFETY_CAUTION, HtmlReport
+
+    report = HtmlReport(
+        "Scenario comparison",
+        f"{len(runs)} scenarios · made {datetime.now(UTC).strftime('%Y-%m-%d %H:%M UTC')}",
+    )
+    report.caution("Food safety", SAFETY_CAUTION)
+    report.section("Side by side")
+    report.table("compare", table, caption="Plan figures per scenario")
+    products = sorted({r.product for run in runs for r in run.result.runs})
+    fig = Figure(figsize=(7.4, 0.9 + 0.5 * max(len(runs), 1)))
+    ax = fig.add_subplot(1, 1, 1)
+    left = [0.0] * len(runs)
+    for j, p in enumerate(products):
+        values = [sum(r.kg for r in run.result.runs if r.product == p) for run in runs]
+        ax.barh(labels, values, left=left, color=BAR_COLOURS[j % len(BAR_COLOURS)], label=p)
+        left = [a + b for a, b in zip(left, values, strict=True)]
+    ax.invert_yaxis()
+    ax.set_xlabel("kg over the horizon", fontsize=9)
+    ax.set_title("kg per product and scenario", fontsize=10, loc="left")
+    ax.spines["top"].set_visible(False)
+    ax.spines["right"].set_visible(False)
+    if products:
+        ax.legend(fontsize=7.5, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    fig.tight_layout()
+    report.figure(
+        fig,
+        caption="Planned kg per product in each scenario.",
+        alt="kg per scenario",
+        name="compare-kg",
+    )
+    for run, label in zip(runs, labels, strict=True):
+        if run.result.shortfalls:
+            report.heading(f"{label}: what does not fit")
+            report.bullets(s.message for s in run.result.shortfalls)
+    for run, label in zip(runs, labels, strict=True):
+        report.footer(f"{label} sha256", run.sha256)
+    report.footer("corepace version", tool_version())
+    report.footer("command", command)
+    return report.render()
+
+
+def cmd_compare(args: argparse.Namespace, ui: Ui) -> int:
+    """``corepace compare A B ...``: several scenarios side by side."""
+    if len(args.scenarios) < 2:
+        raise BadInput(["compare: give at least two scenario files"])
+    problems: list[str] = []
+    scenarios = []
+    for path in args.scenarios:
+        try:
+            scenarios.append(load(path, args))
+        except BadInput as exc:
+            problems.extend(exc.problems)
+    if problems:
+        raise BadInput(problems)
+    labels = _labels(args.scenarios)
+    target = Path(args.out) if args.out else Path(DEFAULT_OUT) / "compare"
+    runs = [
+        run_plan(path, scenario, args, ui)
+        for path, scenario in zip(args.scenarios, scenarios, strict=True)
+    ]
+    table = compare_table(runs, labels)
+    _prepare_out(target)
+    protect = list(args.scenarios)
+    tables = {"compare": table}
+    written = export.write_tables(target, tables, workbook="compare.xlsx", protect=protect)
+    html_text = compare_report(runs, labels, table, args.argv_text)
+    written.append(export.atomic_write_text(target / "compare.html", html_text, protect=protect))
+    data = {
+        "scenarios": [
+            {"label": label, **{k: v for k, v in plan_json(run, []).items() if k != "tables"}}
+            for run, label in zip(runs, labels, strict=True)
+        ],
+        "tables": {"compare": export.table_records(table)},
+    }
+    written.append(export.write_json(target / "compare.json", data, protect=protect))
+    data["files"] = [str(p) for p in written]
+    ui.emit_json(data)
+    ui.say(rich_table(table, title="Scenarios side by side"))
+    _written(ui, written)
+    codes = [_status_code(run.result) for run in runs]
+    for run, label, code in zip(runs, labels, codes, strict=True):
+        if code != EXIT_OK:
+            ui.problem(f"{label}: no feasible plan ({run.result.status.value})")
+            for s in run.result.shortfalls:
+                ui.problem(f"{label}: shortfall: {s.message}")
+    ui.result(f"compared {len(runs)} scenarios → {target}")
+    return max(codes)
 
 
 # ---------------------------------------------------------------------------
@@ -450,7 +1634,12 @@ EPILOG = """\
 examples:
   corepace validate configs/demo.yaml
   corepace dwell configs/demo.yaml --out reports/demo
+  corepace plan configs/demo.yaml --out reports/demo
+  corepace capacity configs/demo.yaml --mix pork-sausage=2,ham-log=1
+  corepace compare configs/demo.yaml other.yaml
   corepace schema > scenario.schema.json
+
+every command: --help for its options; --quiet, --json; --out DIR where files are written.
 
 exit codes: 0 done, 1 no feasible plan (diagnosis printed), 2 bad input
 (one line per problem, nothing written), 3 internal error.
@@ -478,6 +1667,50 @@ def _common(parser: argparse.ArgumentParser, *, out: bool = True) -> None:
     group.add_argument(
         "--debug", action="store_true", help="show the traceback of an internal error"
     )
+
+
+def _positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a number > 0, got {text!r}") from None
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(f"must be a finite number > 0, got {text!r}")
+    return value
+
+
+def _fraction(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a number in [0, 1), got {text!r}") from None
+    if not 0 <= value < 1:
+        raise argparse.ArgumentTypeError(f"must be a number in [0, 1), got {text!r}")
+    return value
+
+
+def _scenario_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument(
+        "--set",
+        action="append",
+        metavar="PATH=VALUE",
+        help="change a scenario value for this run only (the file is not changed), "
+        "e.g. --set tunnels.chill-tunnel.length='30 m'; repeatable",
+    )
+
+
+def _solve_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("solver")
+    group.add_argument(
+        "--time-limit",
+        type=_positive_float,
+        metavar="SECONDS",
+        help="wall-clock limit per solve [s] (default 60)",
+    )
+    group.add_argument(
+        "--gap", type=_fraction, metavar="FRACTION", help="relative MIP gap to stop at"
+    )
+    group.add_argument("--solver", choices=("highs", "cbc"), help="first solver to try")
 
 
 def _cache_options(parser: argparse.ArgumentParser) -> None:
@@ -513,6 +1746,7 @@ def build_parser() -> argparse.ArgumentParser:
         formatter_class=_Formatter,
     )
     p.add_argument("scenario", metavar="SCENARIO", help="scenario file (.yaml/.yml/.json)")
+    _scenario_options(p)
     _common(p, out=False)
     p.set_defaults(func=cmd_validate)
 
@@ -527,9 +1761,76 @@ def build_parser() -> argparse.ArgumentParser:
         formatter_class=_Formatter,
     )
     p.add_argument("scenario", metavar="SCENARIO", help="scenario file")
+    _scenario_options(p)
     _common(p)
     _cache_options(p)
     p.set_defaults(func=cmd_dwell)
+
+    p = sub.add_parser(
+        "plan",
+        help="the shift plan: batches, settings, belt speeds and loading for the most output",
+        description="Plan the shifts for the scenario's objective; print a summary and write "
+        "the plan tables (CSV, plan.xlsx), plan.json, dwell.csv and report.html.\n"
+        "Exit 1 when no plan meets the orders: the shortfall diagnosis is printed.",
+        epilog="examples:\n  corepace plan configs/demo.yaml\n"
+        "  corepace plan configs/demo.yaml --out reports/demo --time-limit 30\n"
+        "  corepace plan configs/demo.yaml --set tunnels.chill-tunnel.length='30 m' --json\n",
+        formatter_class=_Formatter,
+    )
+    p.add_argument("scenario", metavar="SCENARIO", help="scenario file")
+    _scenario_options(p)
+    _solve_options(p)
+    _common(p)
+    _cache_options(p)
+    p.set_defaults(func=cmd_plan)
+
+    p = sub.add_parser(
+        "capacity",
+        help="most kg per hour and per week for a fixed product mix, and what limits it",
+        description="With the product proportions fixed, find the most kg the plant makes over "
+        "the scenario's shifts, per hour and per week, and what runs out first. Writes\n"
+        "capacity.html, capacity.json, the tables as CSV and capacity.xlsx.",
+        epilog="examples:\n  corepace capacity configs/demo.yaml\n"
+        "  corepace capacity configs/demo.yaml --mix pork-sausage=2,ham-log=1\n"
+        "  corepace capacity configs/demo.yaml --shifts-per-week 10 --json\n",
+        formatter_class=_Formatter,
+    )
+    p.add_argument("scenario", metavar="SCENARIO", help="scenario file")
+    p.add_argument(
+        "--mix",
+        action="append",
+        metavar="PRODUCT=SHARE,...",
+        help="product proportions (any positive numbers, normalised); default: the orders' "
+        "minimums, else their maximums, else equal shares",
+    )
+    p.add_argument(
+        "--shifts-per-week",
+        type=float,
+        metavar="N",
+        help="shifts a week for kg per week (default 15: three shifts, five days)",
+    )
+    _scenario_options(p)
+    _solve_options(p)
+    _common(p)
+    _cache_options(p)
+    p.set_defaults(func=cmd_capacity)
+
+    p = sub.add_parser(
+        "compare",
+        help="several scenarios side by side",
+        description="Plan each scenario and put the figures side by side; writes compare.csv, "
+        "compare.xlsx, compare.json and compare.html.\nExit 1 when any scenario has no "
+        "feasible plan.",
+        epilog="examples:\n  corepace compare configs/demo.yaml configs/demo-longer-tunnel.yaml\n"
+        "  corepace compare a.yaml b.yaml c.yaml --out reports/what-if\n",
+        formatter_class=_Formatter,
+    )
+    p.add_argument("scenarios", metavar="SCENARIO", nargs="+", help="two or more scenario files")
+    _scenario_options(p)
+    _solve_options(p)
+    _common(p)
+    _cache_options(p)
+    p.set_defaults(func=cmd_compare)
 
     p = sub.add_parser(
         "schema",
@@ -563,6 +1864,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # --help, --version, usage errors (argparse exits 2)
         return int(exc.code or 0) if not isinstance(exc.code, str) else EXIT_BAD_INPUT
+    args.argv_text = _argv_text(argv)
     ui = Ui(quiet=args.quiet, json_mode=args.json)
     start = time.perf_counter()
     try:

@@ -42,12 +42,16 @@ __all__ = [
     "CurveSet",
     "HtmlReport",
     "RuleMark",
+    "RunInfo",
     "Stage",
     "TimelineBar",
     "figure_png",
     "format_cell",
+    "plan_report",
+    "shift_timelines",
     "temperature_figure",
     "timeline_figure",
+    "utilisation_figure",
 ]
 
 # Our own plain palette: dark ink, one blue-green accent, warm for hot, cool for cold.
@@ -665,6 +669,8 @@ class HtmlReport:
         caption: str = "",
         labels: Mapping[str, str] | None = None,
         empty_text: str = "nothing planned",
+        part: str | None = None,
+        percent: Iterable[str] = (),
     ) -> None:
         """Add a table; cells show rounded values and keep exact ones.
 
@@ -681,9 +687,16 @@ class HtmlReport:
             ``data-column``).
         empty_text : str
             Text of the single row shown when the table is empty.
+        part : str or None
+            When a table is shown in several parts (per shift), the part's
+            key, written as ``data-part``; the parts together are the table.
+        percent : iterable of str
+            Columns holding fractions, shown as percentages (the exact
+            fraction stays in ``data-value``).
         """
         frame = table.reset_index() if any(n is not None for n in table.index.names) else table
         labels = labels or {}
+        as_percent = set(percent)
         columns = [str(c) for c in frame.columns]
         numeric = {
             c: pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(frame[c])
@@ -704,7 +717,10 @@ class HtmlReport:
         for row in frame.itertuples(index=False, name=None):
             cells = []
             for c, value in zip(frame.columns, row, strict=True):
-                shown = format_cell(value, decimals.get(c, 2))
+                if c in as_percent and _is_number(value) and not _is_missing(value):
+                    shown = f"{100 * float(value):.0f} %"
+                else:
+                    shown = format_cell(value, decimals.get(c, 2))
                 is_num = _is_number(value) and not _is_missing(value)
                 cls = ' class="num"' if is_num or numeric[c] else ""
                 cells.append(
@@ -719,8 +735,10 @@ class HtmlReport:
             )
         cap = f"<caption>{html.escape(caption)}</caption>" if caption else ""
         self.table_names.append(name)
+        part_attr = f' data-part="{html.escape(part, quote=True)}"' if part is not None else ""
         self._add(
-            f'<div class="scroll"><table data-table="{html.escape(name, quote=True)}">{cap}'
+            f'<div class="scroll"><table data-table="{html.escape(name, quote=True)}"'
+            f"{part_attr}>{cap}"
             f"<thead><tr>{head}</tr></thead><tbody>{''.join(body_rows)}</tbody></table></div>"
         )
 
@@ -787,3 +805,465 @@ class HtmlReport:
             + "\n".join(sections)
             + f"<footer>{foot}</footer></main></body></html>\n"
         )
+
+
+# ---------------------------------------------------------------------------
+# The plan report
+# ---------------------------------------------------------------------------
+
+SAFETY_CAUTION = (
+    "The dwell times, belt speeds and temperature curves in this report are model "
+    "estimates for the piece sizes entered in the scenario; they are computed for the "
+    "largest piece, and real pieces larger than that are not covered.",
+    "Core-temperature, lethality and cooling limits come from the plant's food-safety "
+    "plan and the local regulator, not from this tool.",
+    "Rule sets shipped with the tool are examples; each names its source below and must "
+    "be checked against the codes that apply to the plant before use.",
+    "Validate every plan with calibrated probes in the thickest pieces at the coldest "
+    "spot of the oven and of the tunnel before it is used in production, and again "
+    "whenever a product, a piece size or an air setting changes.",
+    "Plan for the largest piece, not the average one.",
+)
+
+
+@dataclass(frozen=True)
+class RunInfo:
+    """Where a report came from.
+
+    Parameters
+    ----------
+    scenario_path : str
+        Scenario file as given on the command line.
+    scenario_sha256 : str
+        SHA-256 of the scenario file's bytes.
+    tool_version : str
+        corepace version.
+    generated : str
+        Time the report was made (UTC, ISO 8601).
+    plant : str
+        Plant name from the scenario.
+    command : str
+        Command line that produced the report.
+    """
+
+    scenario_path: str
+    scenario_sha256: str
+    tool_version: str
+    generated: str
+    plant: str
+    command: str = ""
+
+
+def shift_timelines(result: Any, inputs: Any) -> dict[str, list[TimelineBar]]:
+    """Bars per machine for each shift of a plan, in one illustrative order.
+
+    The plan fixes how many batches of each load run on each oven in a shift
+    and how many kg each tunnel run carries, not their order inside the
+    shift. The timeline lays them out in one plausible order:
+
+    * each oven runs its batches one after another, grouped by air setting
+      (the oven's changeover between settings), each batch drawn as its load
+      and unload time followed by its cook dwell;
+    * each batch's kg go to the tunnel runs that take that product from that
+      oven setting (split in proportion to the runs' kg); a tunnel handles
+      its runs one after another (its changeover between runs), in the order
+      their first batch is unloaded, and never starts a batch's kg before the
+      batch is unloaded, so idle gaps show where the belt waits for an oven.
+
+    Bars may run past the end of the shift: the plan balances kg per shift,
+    and the last batches of a shift are then chilled at the start of the
+    next.
+
+    Parameters
+    ----------
+    result : optimizer.results.PlanResult
+        A plan.
+    inputs : optimizer.inputs.PlanInputs
+        The inputs it was solved from (changeover minutes).
+
+    Returns
+    -------
+    dict of str to list of TimelineBar
+        Shift key → bars.
+    """
+    ovens = {o.name: o for o in inputs.ovens}
+    tunnels = {t.name: t for t in inputs.tunnels}
+    out: dict[str, list[TimelineBar]] = {s: [] for s in result.shifts}
+    for shift in result.shifts:
+        bars = out[shift]
+        # (product, oven, setting) -> list of (unload time [min], kg in that batch)
+        unloads: dict[tuple[str, str, str], list[tuple[float, float]]] = {}
+        for oven in ovens.values():
+            batches = sorted(
+                (b for b in result.batches if b.oven == oven.name and b.shift == shift),
+                key=lambda b: (b.setting, b.load),
+            )
+            clock, setting = 0.0, None
+            for b in batches:
+                if setting is not None and b.setting != setting and oven.changeover_min > 0:
+                    bars.append(
+                        TimelineBar(oven.name, clock, clock + oven.changeover_min, kind="setup")
+                    )
+                    clock += oven.changeover_min
+                setting = b.setting
+                products = " + ".join(c.product for c in b.contents)
+                setup = max(b.cycle_min - b.cook_min, 0.0)
+                for _ in range(b.batches):
+                    # load before the cook, unload after it: half the setup each side
+                    if setup > 0:
+                        bars.append(TimelineBar(oven.name, clock, clock + setup / 2, kind="setup"))
+                        clock += setup / 2
+                    bars.append(
+                        TimelineBar(oven.name, clock, clock + b.cook_min, b.setting, products)
+                    )
+                    clock += b.cook_min
+                    if setup > 0:
+                        bars.append(TimelineBar(oven.name, clock, clock + setup / 2, kind="setup"))
+                        clock += setup / 2
+                    for c in b.contents:
+                        if b.batches > 0 and c.kg > 0:
+                            unloads.setdefault((c.product, b.oven, b.setting), []).append(
+                                (clock, c.kg / b.batches)
+                            )
+        shift_runs = [r for r in result.runs if r.shift == shift and r.kg > 0]
+        taken: dict[tuple[str, str, str], float] = {}
+        for r in shift_runs:
+            key = (r.product, r.oven, r.oven_setting)
+            taken[key] = taken.get(key, 0.0) + r.kg
+        for tunnel in tunnels.values():
+            groups: dict[tuple[str, str, str], list[tuple[float, float, Any]]] = {}
+            for r in shift_runs:
+                if r.tunnel != tunnel.name:
+                    continue
+                key = (r.product, r.oven, r.oven_setting)
+                share = r.kg / taken[key]
+                portions = unloads.get(key) or [(0.0, r.kg / share)]
+                group = groups.setdefault((r.product, r.tunnel_setting, r.loading), [])
+                group.extend((ready, kg * share / r.rate_kg_per_min, r) for ready, kg in portions)
+            order = sorted(groups, key=lambda g: (min(p[0] for p in groups[g]), g))
+            clock = 0.0
+            for i, g in enumerate(order):
+                if i > 0 and tunnel.changeover_min > 0:
+                    bars.append(
+                        TimelineBar(tunnel.name, clock, clock + tunnel.changeover_min, kind="setup")
+                    )
+                    clock += tunnel.changeover_min
+                for ready, minutes, r in sorted(groups[g], key=lambda p: (p[0], p[1])):
+                    start = max(clock, ready)
+                    label = f"{r.belt_speed_m_per_min:.2f} m/min"
+                    previous = bars[-1] if bars else None
+                    if (
+                        previous is not None
+                        and previous.machine == tunnel.name
+                        and previous.kind == "work"
+                        and previous.group == r.product
+                        and previous.label == label
+                        and abs(previous.end - start) < 1e-9
+                    ):
+                        bars[-1] = TimelineBar(
+                            tunnel.name, previous.start, start + minutes, label, r.product
+                        )
+                    else:
+                        bars.append(
+                            TimelineBar(tunnel.name, start, start + minutes, label, r.product)
+                        )
+                    clock = start + minutes
+    return out
+
+
+def utilisation_figure(utilisation: pd.DataFrame) -> Figure:
+    """Bars of utilisation per machine, one bar per shift.
+
+    Parameters
+    ----------
+    utilisation : pandas.DataFrame
+        Columns ``machine``, ``shift``, ``utilisation`` [-].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The plot.
+    """
+    machines = list(dict.fromkeys(utilisation["machine"]))
+    shifts = list(dict.fromkeys(utilisation["shift"]))
+    fig = Figure(figsize=(7.4, 0.9 + 0.45 * max(len(machines), 1)))
+    ax = fig.add_subplot(1, 1, 1)
+    _style_axes(ax)
+    ax.grid(True, axis="x", color="#e3e6e8", linewidth=0.7)
+    ax.grid(False, axis="y")
+    height = 0.8 / max(len(shifts), 1)
+    for j, shift in enumerate(shifts):
+        part = utilisation[utilisation["shift"] == shift].set_index("machine")
+        ys = [len(machines) - 1 - i + 0.4 - height * (j + 0.5) for i in range(len(machines))]
+        values = [100.0 * float(part["utilisation"].get(m, 0.0)) for m in machines]
+        ax.barh(
+            ys, values, height=height * 0.92, color=BAR_COLOURS[j % len(BAR_COLOURS)], label=shift
+        )
+    ax.axvline(100.0, color=INK, linewidth=1.0)
+    ax.set_yticks([len(machines) - 1 - i for i in range(len(machines))])
+    ax.set_yticklabels(machines, fontsize=8.5)
+    ax.set_xlim(0, 105)
+    ax.set_xlabel("utilisation [% of available minutes]", fontsize=9, color=INK)
+    ax.set_title("Machine utilisation per shift", fontsize=10, color=INK, loc="left")
+    ax.legend(fontsize=7.5, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    fig.tight_layout()
+    return fig
+
+
+COLUMN_LABELS = {
+    "cook_min": "cook [min]",
+    "cycle_min": "cycle [min]",
+    "minutes": "minutes",
+    "kg": "kg",
+    "belt_speed_m_per_min": "belt speed [m/min]",
+    "max_belt_speed_m_per_min": "fastest belt [m/min]",
+    "oven_setting": "oven setting",
+    "tunnel_setting": "tunnel setting",
+    "used_min": "used [min]",
+    "changeover_min": "changeover [min]",
+    "available_min": "available [min]",
+    "utilisation": "utilisation",
+    "per_hour": "per extra hour",
+    "chill_min": "chill [min]",
+    "heat_in_kj_per_kg": "heat in [kJ/kg]",
+    "heat_out_kj_per_kg": "heat out [kJ/kg]",
+    "total_slack": "total slack",
+    "smallest_slack": "smallest slack",
+}
+
+
+def _kv_number(value: float | None, unit: str, decimals: int = 1) -> str:
+    if value is None or not math.isfinite(value):
+        return "–"
+    return f"{value:,.{decimals}f} {unit}".strip()
+
+
+def plan_report(
+    result: Any,
+    inputs: Any,
+    tables: Mapping[str, pd.DataFrame],
+    *,
+    info: RunInfo,
+    curves: Sequence[tuple[str, CurveSet, str]] = (),
+    methods: Sequence[tuple[str, str]] = (),
+    notes: Sequence[str] = (),
+) -> str:
+    """The HTML report of one plan run.
+
+    Parameters
+    ----------
+    result : optimizer.results.PlanResult
+        The solved plan (or the diagnosis when nothing fits).
+    inputs : optimizer.inputs.PlanInputs
+        Inputs of the solve (machines, shifts, changeovers).
+    tables : mapping of str to pandas.DataFrame
+        The exported tables by file stem: at least the planner's
+        ``ovens``, ``tunnels``, ``totals``, ``utilisation``,
+        ``shadow_prices``, ``slack`` and ``shortfalls``; ``rules`` and
+        ``dwell_used`` when present. Every table shown in the report is one
+        of these (per-shift parts of ``ovens`` and ``tunnels``).
+    info : RunInfo
+        Scenario file, hash, version, time.
+    curves : sequence of (product, CurveSet, caption)
+        Temperature histories of each planned product at its planned
+        settings.
+    methods : sequence of (method, source)
+        Methods used and their published sources.
+    notes : sequence of str
+        Extra notes shown under the summary (assumptions, warnings).
+
+    Returns
+    -------
+    str
+        The self-contained HTML page.
+    """
+    from optimizer.results import bottleneck
+
+    unit = result.objective_unit
+    status = result.status
+    report = HtmlReport(
+        f"Shift plan — {info.plant}",
+        f"Scenario {info.scenario_path} · {len(result.shifts)} shift(s) · made {info.generated}",
+    )
+    report.caution("Food safety", SAFETY_CAUTION)
+
+    # -- summary -----------------------------------------------------------
+    report.section("Summary")
+    bn = bottleneck(result)
+    n_shifts = max(len(result.shifts), 1)
+    pairs: list[tuple[str, Any]] = [
+        ("plan status", status.value.replace("_", " ")),
+        ("objective", f"{result.objective.value.replace('_', ' ')}"),
+    ]
+    if result.objective_value is not None:
+        pairs.append(("objective value", _kv_number(result.objective_value, unit)))
+    pairs.append(("total through the tunnels", _kv_number(result.total_kg, "kg")))
+    pairs.append(("mean per shift", _kv_number(result.total_kg / n_shifts, "kg")))
+    if bn is not None:
+        pairs.append(("bottleneck", f"{bn.kind} {bn.machine}"))
+        pairs.append(
+            (
+                "its shadow price",
+                f"{_kv_number(bn.per_hour, unit)} per extra machine hour ({bn.reason})",
+            )
+        )
+        pairs.append(("its mean utilisation", f"{100 * bn.utilisation:.0f} %"))
+    if result.gap is not None:
+        pairs.append(("relative gap", f"{100 * result.gap:.3f} %"))
+    pairs.append(
+        (
+            "solver",
+            f"{result.solver}; build {result.build_seconds:.2f} s, "
+            f"solve {result.solve_seconds:.2f} s",
+        )
+    )
+    report.key_values(pairs)
+    if not status.has_plan:
+        report.note(
+            "No plan meets every order with the machines available. The diagnosis below "
+            "names the smallest shortfalls that would make the orders fit."
+            if status.value == "infeasible"
+            else f"No plan: {status.value.replace('_', ' ')}."
+        )
+    for text in [*notes, *result.messages]:
+        report.note(text)
+    for product, reasons in result.excluded.items():
+        report.note(f"{product} cannot be made on this plant: {'; '.join(reasons)}")
+    if "totals" in tables:
+        report.table(
+            "totals",
+            tables["totals"],
+            caption="kg per product and shift",
+            labels={"total": "total kg"},
+        )
+    if "utilisation" in tables:
+        util = tables["utilisation"]
+        if not util.empty and status.has_plan:
+            report.figure(
+                utilisation_figure(util),
+                caption="Share of each machine's available minutes used in each shift "
+                "(changeovers included).",
+                alt="utilisation per machine and shift",
+                name="utilisation",
+            )
+        report.table(
+            "utilisation",
+            util,
+            caption="Utilisation per machine and shift",
+            labels=COLUMN_LABELS,
+            percent=("utilisation",),
+        )
+    if "shadow_prices" in tables:
+        report.paragraph(
+            f"Shadow price: how much the objective would gain ({unit}) from one more hour "
+            "on a machine in a shift, with the plan's on/off choices kept and batch counts "
+            "free to change; zero means the machine has spare time."
+        )
+        report.table(
+            "shadow_prices",
+            tables["shadow_prices"],
+            caption=f"Shadow prices of machine time [{unit} per extra hour]",
+            labels=COLUMN_LABELS,
+            empty_text="not computed",
+        )
+
+    # -- diagnosis -----------------------------------------------------------
+    if "shortfalls" in tables and (not tables["shortfalls"].empty or not status.has_plan):
+        report.section("What does not fit")
+        report.bullets(s.message for s in result.shortfalls)
+        report.table(
+            "shortfalls",
+            tables["shortfalls"],
+            caption="Smallest shortfalls (elastic re-solve)",
+            empty_text="no diagnosis available",
+        )
+
+    # -- per shift -----------------------------------------------------------
+    if status.has_plan:
+        timelines = shift_timelines(result, inputs)
+        machines = [o.name for o in inputs.ovens] + [t.name for t in inputs.tunnels]
+        shift_minutes = {s.name: s.minutes for s in inputs.shifts}
+        report.section("Plan per shift", newpage=True)
+        ovens = tables.get("ovens", pd.DataFrame(columns=["shift"]))
+        tunnels = tables.get("tunnels", pd.DataFrame(columns=["shift"]))
+        for shift in result.shifts:
+            kg = float(tunnels.loc[tunnels["shift"] == shift, "kg"].sum()) if len(tunnels) else 0
+            report.heading(f"{shift} — {kg:,.0f} kg")
+            report.table(
+                "ovens",
+                ovens[ovens["shift"] == shift],
+                caption=f"Ovens, {shift}: batches of each load",
+                labels=COLUMN_LABELS,
+                part=shift,
+            )
+            report.table(
+                "tunnels",
+                tunnels[tunnels["shift"] == shift],
+                caption=f"Tunnels, {shift}: runs with belt speed and loading",
+                labels=COLUMN_LABELS,
+                part=shift,
+            )
+            report.figure(
+                timeline_figure(
+                    timelines.get(shift, []),
+                    title=f"Machine timeline, {shift}",
+                    shift_minutes=shift_minutes.get(shift),
+                    machines=machines,
+                ),
+                caption="One plausible order of the planned batches and runs (the plan fixes "
+                "the counts per shift, not the order). Oven bars: cook dwell, coloured by "
+                "what the batch holds; hatched: load, unload and changeovers. Tunnel bars: "
+                "each product's kg at the belt speed shown, started only once its batch is "
+                "unloaded (gaps: the belt waits for an oven). The black line is the end of "
+                "the shift; work past it carries into the next shift.",
+                alt=f"timeline of every machine in {shift}",
+                name=f"timeline-{shift}",
+            )
+
+    # -- temperatures ----------------------------------------------------------
+    if curves:
+        report.section("Temperatures of the planned products", newpage=True)
+        report.paragraph(
+            "Core (slowest point) and surface temperature of the largest piece through "
+            "oven, transfer and tunnel at the planned settings, with each rule's target "
+            "(dashed) and time window (dotted line and shading)."
+        )
+        for product, curve, caption in curves:
+            report.figure(
+                temperature_figure(curve),
+                caption=caption,
+                alt=f"core and surface temperature of {product}",
+                name=f"temperatures-{product}",
+            )
+
+    # -- rules, methods, appendix ------------------------------------------------
+    report.section("Rules, methods and sources", newpage=True)
+    if "rules" in tables:
+        report.table("rules", tables["rules"], caption="Rules applied per product and their source")
+    if methods:
+        report.heading("Methods")
+        report.bullets(f"{m} — {s}" for m, s in methods)
+    if "dwell_used" in tables:
+        report.heading("Dwell-table rows the plan uses")
+        report.table(
+            "dwell_used",
+            tables["dwell_used"],
+            caption="Cook and chill times of the largest piece at the planned settings",
+            labels=COLUMN_LABELS,
+        )
+    if "slack" in tables:
+        report.table(
+            "slack", tables["slack"], caption="Slack per constraint group", labels=COLUMN_LABELS
+        )
+    report.paragraph(
+        "Every table in this report is also written beside it as CSV and in one XLSX "
+        "workbook; cite numbers from those files together with the scenario hash below.",
+        css_class="sub",
+    )
+    report.footer("scenario", info.scenario_path)
+    report.footer("scenario sha256", info.scenario_sha256)
+    report.footer("corepace version", info.tool_version)
+    report.footer("made (UTC)", info.generated)
+    if info.command:
+        report.footer("command", info.command)
+    return report.render()

@@ -9,6 +9,7 @@ must not load anything from outside.
 from __future__ import annotations
 
 import base64
+import itertools
 import json
 import math
 import os
@@ -294,3 +295,102 @@ def test_json_is_strict(tmp_path: Path):
         "n": 3,
         "path": "/x/y",
     }
+
+
+# ---------------------------------------------------------------------------
+# plan report pieces on a hand-made plan (planner test plant, invented data)
+# ---------------------------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def small_plan():
+    from optimizer.solve import plan
+    from tests._planner_cases import one_line
+
+    inputs = one_line(
+        products={"A": (10.0, 50.0, 1.0, {}), "B": (12.0, 45.0, 0.3, {})},
+        n_shifts=2,
+        oven_changeover=15.0,
+        tunnel_changeover=10.0,
+        tunnel_width=0.5,
+    )
+    result = plan(inputs)
+    assert result.status.has_plan
+    return inputs, result
+
+
+def test_timeline_accounts_for_every_batch_and_run(small_plan):
+    from optimizer.report import shift_timelines
+
+    inputs, result = small_plan
+    timelines = shift_timelines(result, inputs)
+    assert set(timelines) == set(result.shifts)
+    for shift, bars in timelines.items():
+        oven_work = [b for b in bars if b.machine == "oven-1" and b.kind == "work"]
+        batches = [b for b in result.batches if b.shift == shift]
+        assert len(oven_work) == sum(b.batches for b in batches)
+        cook = sum(b.end - b.start for b in oven_work)
+        assert cook == pytest.approx(sum(b.batches * b.cook_min for b in batches))
+        # oven bars never overlap
+        ordered = sorted((b for b in bars if b.machine == "oven-1"), key=lambda b: b.start)
+        for a, b in itertools.pairwise(ordered):
+            assert b.start >= a.end - 1e-9
+        tunnel_work = [b for b in bars if b.machine == "tunnel-1" and b.kind == "work"]
+        runs = [r for r in result.runs if r.shift == shift]
+        assert sum(b.end - b.start for b in tunnel_work) == pytest.approx(
+            sum(r.minutes for r in runs)
+        )
+        # the belt never takes a product before the first batch holding it leaves the oven
+        for bar in tunnel_work:
+            first_cook_end = min(o.end for o in oven_work if bar.group in o.group.split(" + "))
+            assert bar.start >= first_cook_end - 1e-9
+
+
+def test_plan_report_tables_equal_plan_tables(small_plan):
+    from optimizer.report import RunInfo, plan_report
+    from optimizer.results import plan_tables
+
+    inputs, result = small_plan
+    tables = plan_tables(result)
+    text = plan_report(
+        result, inputs, tables, info=RunInfo("plant.yaml", "0" * 64, "0.1.0", "now", "Test")
+    )
+    reader = _PartsReader()
+    reader.feed(text)
+    for name, table in tables.items():
+        rows = reader.rows.get(name, [])
+        if table.empty:
+            continue
+        expected = [[export._cell_json(v) for v in row] for row in table.itertuples(index=False)]
+        got = [[_typed(cell) for cell in row] for row in rows]
+        assert sorted(map(repr, got)) == sorted(map(repr, expected)), name
+    assert len(reader.images) >= 1 + len(result.shifts)  # utilisation + a timeline per shift
+    assert "Food safety" in text and "0" * 64 in text
+
+
+def _typed(cell: str):
+    if cell == "":
+        return None
+    if cell in ("true", "false"):
+        return cell == "true"
+    try:
+        return int(cell)
+    except ValueError:
+        pass
+    try:
+        return float(cell)
+    except ValueError:
+        return cell
+
+
+class _PartsReader(ReportReader):
+    """Joins the parts of tables shown in several pieces (per shift)."""
+
+    def __init__(self):
+        super().__init__()
+        self.rows: dict[str, list[list[str]]] = {}
+
+    def handle_endtag(self, tag):
+        if tag == "tr" and self._row:
+            self.rows.setdefault(self._table, []).append(self._row)
+        super().handle_endtag(tag)
