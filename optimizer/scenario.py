@@ -46,6 +46,7 @@ from pydantic import (
     Tag,
     TypeAdapter,
     ValidationError,
+    ValidationInfo,
     WithJsonSchema,
     model_validator,
 )
@@ -268,11 +269,25 @@ class _AirMixin(_Model):
         ),
     )
     relative_humidity: Fraction | None = Field(
-        None, description="Relative humidity of the air [-], 0..1 or '65 %'."
+        None,
+        description=(
+            "Relative humidity of the air [-], 0..1 or '65 %' (above 100 °C at most "
+            "p/p_sat; give dew_point for hot humid ovens)."
+        ),
+    )
+    dew_point: Temperature | None = Field(
+        None, description="Dew point of the air [°C]; an alternative to relative_humidity."
     )
 
     @model_validator(mode="after")
     def _speed_or_h(self) -> _AirMixin:
+        if self.relative_humidity is not None and self.dew_point is not None:
+            raise _problem("give relative_humidity or dew_point, not both")
+        if self.dew_point is not None and self.dew_point > self.air_temperature:
+            raise _problem(
+                f"dew_point: must be <= the air temperature ({_fmt(self.air_temperature)} °C), "
+                f"got {_fmt(self.dew_point)} °C"
+            )
         if (self.air_speed is None) == (self.measured_h is None):
             raise _problem(
                 "give exactly one of air_speed (e.g. '2.5 m/s') or measured_h "
@@ -1004,7 +1019,9 @@ class Scenario(_Model):
     safety_margin: SafetyMargin = Field(default_factory=SafetyMargin)
 
     @model_validator(mode="after")
-    def _cross(self) -> Scenario:
+    def _cross(self, info: ValidationInfo) -> Scenario:
+        if isinstance(info.context, Mapping) and info.context.get(_CHECKED):
+            return self  # scenario_from_dict has just run these checks
         problems = _cross_field_problems(
             {k: list(enumerate(getattr(self, k))) for k in _LIST_SECTIONS},
             self.rules,
@@ -1060,6 +1077,7 @@ def _find(items: Iterable[Any], name: str, what: str) -> Any:
 
 
 _LIST_SECTIONS = ("ovens", "tunnels", "products", "shifts", "orders")
+_CHECKED = "corepace-cross-checked"
 _ANY = "\x00any"  # marks a section that failed as a whole: skip reference checks
 
 # ------------------------------------------------------------------ cross-field checks
@@ -1161,6 +1179,18 @@ def _cross_field_problems(
             if o.name not in fed:
                 out.append(f"ovens[{i}]: {o.name!r} feeds no tunnel; list it in a tunnel's fed_by")
 
+    for i, t in tunnels:
+        for k, st in enumerate(t.settings):
+            for j in range(1, len(st.zones)):
+                before, here = st.zones[j - 1].air_temperature, st.zones[j].air_temperature
+                if here > before:
+                    out.append(
+                        f"tunnels[{i}].settings[{k}].zones[{j}].air_temperature: must not be "
+                        f"warmer than zones[{j - 1}] ({_fmt(before)} °C) — zone air must not get "
+                        f"warmer along the tunnel, got {_fmt(here)} °C"
+                    )
+    out.extend(_physics_problems(ovens, tunnels, products))
+
     # products: rules
     library = {**builtin_rules(), **rules}
     cook_names = sorted(n for n, r in library.items() if isinstance(r, CookRuleSpec))
@@ -1175,10 +1205,17 @@ def _cross_field_problems(
     oven_settings = [(i, k, s) for i, o in ovens for k, s in enumerate(o.settings)]
     tunnel_settings = [(i, k, s) for i, t in tunnels for k, s in enumerate(t.settings)]
     for i, p in products:
-        cook = _resolve(out, f"products[{i}].cook_rule", p.cook_rule, library, "cook", cook_names)
-        chill = _resolve(
-            out, f"products[{i}].chill_rule", p.chill_rule, library, "chill", chill_names
-        )
+        failed = raw_names.get("rules", set())
+        cook = None
+        if not (isinstance(p.cook_rule, str) and p.cook_rule in failed):
+            cook = _resolve(
+                out, f"products[{i}].cook_rule", p.cook_rule, library, "cook", cook_names
+            )
+        chill = None
+        if not (isinstance(p.chill_rule, str) and p.chill_rule in failed):
+            chill = _resolve(
+                out, f"products[{i}].chill_rule", p.chill_rule, library, "chill", chill_names
+            )
         if cook is not None and cook.lowest_target is not None:
             target = cook.lowest_target + margin
             if target <= p.initial_temperature:
@@ -1251,6 +1288,60 @@ def _cross_field_problems(
     return out
 
 
+_PHYSICS_FIELDS = {
+    "temperature": "air_temperature",
+    "speed": "air_speed",
+    "humidity_ratio": "dew_point",
+    "relative_humidity": "relative_humidity",
+    "wall_temperature": "wall_temperature",
+    "measured_h": "measured_h",
+}
+
+
+def _physics_problems(
+    ovens: list[tuple[int, Oven]],
+    tunnels: list[tuple[int, Tunnel]],
+    products: list[tuple[int, Product]],
+) -> list[str]:
+    """Ask the physics layer to accept every air setting and material, with field paths.
+
+    Catches what only the physics can judge, e.g. a relative humidity that
+    air above 100 °C cannot hold at atmospheric pressure.
+    """
+    from optimizer.dwell import air_setting, thermal_properties
+    from thermal.errors import ThermalInputError
+
+    out: list[str] = []
+
+    def air(path: str, spec: Any) -> None:
+        try:
+            air_setting(spec)
+        except ThermalInputError as exc:
+            msg = str(exc)
+            head, sep, tail = msg.partition(": ")
+            if sep and head in _PHYSICS_FIELDS:
+                out.append(f"{path}.{_PHYSICS_FIELDS[head]}: {tail}")
+            else:
+                out.append(f"{path}: {msg}")
+
+    for i, o in ovens:
+        for k, st in enumerate(o.settings):
+            air(f"ovens[{i}].settings[{k}]", st)
+    for i, t in tunnels:
+        if t.transfer is not None:
+            air(f"tunnels[{i}].transfer", t.transfer)
+        for k, st in enumerate(t.settings):
+            for j, z in enumerate(st.zones):
+                air(f"tunnels[{i}].settings[{k}].zones[{j}]", z)
+    for i, p in products:
+        try:
+            thermal_properties(p)
+        except ThermalInputError as exc:
+            part = "composition" if p.composition is not None else "properties"
+            out.append(f"products[{i}].{part}: {exc}")
+    return out
+
+
 def _unique(out: list[str], where: str, names: list[str]) -> None:
     seen: dict[str, int] = {}
     for j, n in enumerate(names):
@@ -1274,7 +1365,7 @@ def _resolve(
         return ref
     rule = library.get(ref)
     if rule is None:
-        close = difflib.get_close_matches(ref, accepted, n=1)
+        close = difflib.get_close_matches(ref, accepted, n=1, cutoff=0.5)
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         out.append(
             f"{where}: {ref!r} is not a known {kind} rule set{hint}; known: {_quote_list(accepted)}"
@@ -1496,6 +1587,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
             try:
                 rules[str(name)] = adapter.validate_python(spec)
             except ValidationError as exc:
+                raw_names.setdefault("rules", set()).add(str(name))
                 for err in exc.errors(include_url=False):
                     problems.append(_error_line(CookRuleSpec, err, f"rules.{name}"))
 
@@ -1523,7 +1615,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
     if problems:
         raise ScenarioError(problems, source)
     try:
-        return Scenario.model_validate(dict(data))
+        return Scenario.model_validate(dict(data), context={_CHECKED: True})
     except ValidationError as exc:  # anything the per-section pass could not see
         raise ScenarioError(_errors_of(Scenario, exc), source) from None
 

@@ -1,0 +1,873 @@
+"""The dwell table: every product at every air setting, from the physics.
+
+One row per (product, oven, oven setting, tunnel, tunnel setting, loading),
+for every tunnel the oven feeds. For each row:
+
+* **cook** — the shortest oven dwell for the *largest* piece to meet the
+  product's cook rule at that oven setting
+  (:func:`thermal.process.required_cook`; the exact series where it is exact,
+  the finite-volume solver otherwise), safety margin included;
+* **chill** — the shortest tunnel residence to meet the chill (or freeze)
+  rule, starting from the actual temperature field at oven exit, through the
+  transfer (hot-hold) stage and the tunnel zones
+  (:func:`thermal.process.required_chill`), margin included;
+* **belt** — the fastest belt speed that gives that residence,
+  ``tunnel length / chill minutes``, capped at the belt maximum; a row
+  needing a belt slower than the belt minimum is ruled out;
+* which rule clause binds, the method used, the heat per kg, and, for every
+  ruled-out cell, the reason.
+
+Columns (as agreed in the interface contract): ``product, oven, oven_setting,
+tunnel, tunnel_setting, loading, cook_min, cook_feasible, cook_binding,
+cook_reason, cook_method, heat_in_kj_per_kg, chill_min, chill_feasible,
+chill_binding, chill_reason, chill_method, heat_out_kj_per_kg,
+max_belt_speed_m_per_min, feasible, reason``, plus ``notes`` (validity
+warnings of the correlations used, "" when none).
+
+Transfer and hot hold
+---------------------
+A batch may wait anywhere from the tunnel's ``transfer.duration`` up to its
+``hot_hold_max`` between oven and belt. A short wait sends the product into
+the tunnel hotter (longer residence); a long wait uses up cooling-window time
+in room air. When both are given and differ, the chill is computed at both
+ends and the row takes the longer residence (and is ruled out if either end
+breaks the rule), so the plan holds for any wait the planner allows.
+
+Safety margins
+--------------
+``safety_margin.time_fraction`` is added to every cook dwell and tunnel
+residence (:class:`thermal.process.Margin`); the chill starts from the oven
+exit state *at the dwell with margin*. ``safety_margin.core_temperature`` is
+added to every cook target (and table temperature) and taken off every chill
+target (exit limit and each step's end temperature).
+
+Mapping of rules
+----------------
+A scenario cook rule becomes a :class:`thermal.rules.CookRule`:
+``core_temperature``/``hold`` directly; ``alternatives`` a
+:class:`thermal.rules.TimeTemperatureTable` (any row, interpolated between
+rows in log time) with the lowest row as core target; ``lethality`` a
+:class:`thermal.rules.LethalityRule`. A rule with lethality only has no core
+temperature of its own: its core target is set just above the product's
+initial temperature, so only the lethality binds.
+
+Cache
+-----
+Results are cached on disk under ``cache_dir`` (``None`` = no cache): one
+small JSON file per cook cell and per chill cell, named by the SHA-256 of a
+canonical JSON of every input the cell depends on (piece geometry, material,
+air settings, rule, margin, solver options) and a salt made of
+:data:`CACHE_VERSION` and a hash of the physics source code; and one file per
+whole table. A second build of the same scenario reads one file; changing a
+product's size, an air temperature or a rule recomputes only the cells that
+depend on it. Files are written atomically (temporary file, then rename).
+
+CAUTION: the figures are model estimates for the piece sizes entered. The
+rules come from the plant's food-safety plan and local codes; validate any
+plan with calibrated probes in the thickest pieces at the coldest spot.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+import tempfile
+import warnings
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from optimizer.scenario import (
+    BlockGeometry,
+    ChillRuleSpec,
+    CookRuleSpec,
+    CylinderGeometry,
+    FiniteCylinderGeometry,
+    FreezeRuleSpec,
+    Oven,
+    OvenSetting,
+    Product,
+    Scenario,
+    SlabGeometry,
+    SphereGeometry,
+    TransferStage,
+    Tunnel,
+    TunnelSetting,
+)
+from optimizer.units import minutes_to_seconds, seconds_to_minutes
+
+__all__ = [
+    "CACHE_VERSION",
+    "COLUMNS",
+    "SolverOptions",
+    "air_setting",
+    "build_dwell_table",
+    "chill_rule",
+    "cook_rule",
+    "dwell_cache_key",
+    "render_dwell_table",
+    "thermal_geometry",
+    "thermal_product",
+    "tunnel_zones",
+    "write_dwell_csv",
+]
+
+CACHE_VERSION = "corepace-dwell-1"
+"""Bumped whenever the meaning of a cached cell changes."""
+
+COLUMNS: tuple[str, ...] = (
+    "product",
+    "oven",
+    "oven_setting",
+    "tunnel",
+    "tunnel_setting",
+    "loading",
+    "cook_min",
+    "cook_feasible",
+    "cook_binding",
+    "cook_reason",
+    "cook_method",
+    "heat_in_kj_per_kg",
+    "chill_min",
+    "chill_feasible",
+    "chill_binding",
+    "chill_reason",
+    "chill_method",
+    "heat_out_kj_per_kg",
+    "max_belt_speed_m_per_min",
+    "feasible",
+    "reason",
+    "notes",
+)
+"""Dwell-table columns, in order."""
+
+Progress = Callable[..., None]
+"""``progress(done, total, text)``: called after each computed cell."""
+
+
+@dataclass(frozen=True)
+class SolverOptions:
+    """Numerical options of the dwell computation (part of every cache key).
+
+    Parameters
+    ----------
+    n_cells : int or None
+        Finite-volume cells per direction, centre to surface; None = the
+        physics layer's default for the shape (:data:`thermal.process.DEFAULT_CELLS`).
+    steps : int
+        Time steps over a run (:data:`thermal.process.DEFAULT_STEPS`).
+    max_dwell_min : float
+        Longest oven dwell considered [min].
+    max_residence_min : float
+        Longest tunnel residence considered [min].
+    """
+
+    n_cells: int | None = None
+    steps: int = 300
+    max_dwell_min: float = 24 * 60.0
+    max_residence_min: float = 24 * 60.0
+
+
+# ------------------------------------------------------------------ scenario → thermal
+
+
+def thermal_geometry(geometry: Any) -> Any:
+    """The :mod:`thermal.geometry` shape of the *largest* piece of a scenario geometry.
+
+    Parameters
+    ----------
+    geometry : SlabGeometry or CylinderGeometry or SphereGeometry or
+        FiniteCylinderGeometry or BlockGeometry
+        A validated scenario geometry (dimensions in m).
+
+    Returns
+    -------
+    thermal.geometry shape
+        ``Slab``, ``InfiniteCylinder``, ``Sphere``, ``FiniteCylinder`` or ``Block``
+        with the largest-piece dimensions [m].
+    """
+    from thermal import geometry as g
+
+    d = geometry.largest_dims()
+    if isinstance(geometry, SlabGeometry):
+        return g.Slab(d["thickness"], length=d["length"], width=d["width"])
+    if isinstance(geometry, CylinderGeometry):
+        return g.InfiniteCylinder(d["radius"])
+    if isinstance(geometry, SphereGeometry):
+        return g.Sphere(d["radius"])
+    if isinstance(geometry, FiniteCylinderGeometry):
+        return g.FiniteCylinder(d["radius"], d["length"])
+    if isinstance(geometry, BlockGeometry):
+        return g.Block(d["length"], d["width"], d["height"])
+    raise TypeError(f"geometry: unknown scenario geometry {type(geometry).__name__}")
+
+
+def thermal_properties(product: Product) -> Any:
+    """Food properties of a scenario product (:mod:`thermal.foods`).
+
+    A composition gives :class:`thermal.foods.FoodProperties` (with the
+    product's freezing point when given, else estimated); explicit
+    properties give :class:`thermal.foods.ConstantProperties`.
+    """
+    from thermal import foods
+
+    if product.composition is not None:
+        c = product.composition
+        comp = foods.Composition(
+            water=c.water,
+            protein=c.protein,
+            fat=c.fat,
+            carbohydrate=c.carbohydrate,
+            fiber=c.fiber,
+            ash=c.ash,
+        )
+        return foods.FoodProperties(comp, freezing_point=product.freezing_point)
+    p = product.properties
+    assert p is not None
+    return foods.ConstantProperties(
+        p.conductivity,
+        p.density,
+        p.specific_heat,
+        freezing_point=product.freezing_point,
+        latent_heat=p.latent_heat,
+    )
+
+
+def thermal_product(product: Product, *, emissivity: float | None = None) -> Any:
+    """A :class:`thermal.product.Product` for the largest piece of ``product``.
+
+    Parameters
+    ----------
+    product : Product
+        Scenario product.
+    emissivity : float, optional
+        Surface emissivity overriding the product's [-] (an oven setting's
+        ``emissivity``).
+    """
+    from thermal.product import Product as ThermalProduct
+
+    eps = product.emissivity if emissivity is None else emissivity
+    return ThermalProduct(
+        product.name, thermal_geometry(product.geometry), thermal_properties(product), eps
+    )
+
+
+def air_setting(spec: Any) -> Any:
+    """A :class:`thermal.convection.AirSetting` from a scenario air description.
+
+    ``spec`` is an oven setting, a transfer stage or a tunnel zone: air
+    temperature [°C], air speed [m/s] or measured h [W/(m² K)], relative
+    humidity [-] or dew point [°C], and (ovens) wall temperature [°C]. With a
+    measured h the air speed is not used (0).
+    """
+    from thermal.air import humidity_ratio_from_dew_point
+    from thermal.convection import AirSetting
+
+    ratio = None
+    if spec.dew_point is not None:
+        ratio = float(humidity_ratio_from_dew_point(spec.dew_point))
+    return AirSetting(
+        temperature=spec.air_temperature,
+        speed=spec.air_speed if spec.air_speed is not None else 0.0,
+        relative_humidity=spec.relative_humidity,
+        wall_temperature=getattr(spec, "wall_temperature", None),
+        measured_h=spec.measured_h,
+        humidity_ratio=ratio,
+    )
+
+
+def cook_rule(spec: CookRuleSpec, t_initial: float, margin_k: float = 0.0) -> Any:
+    """The :class:`thermal.rules.CookRule` of a scenario cook rule.
+
+    Parameters
+    ----------
+    spec : CookRuleSpec
+        Scenario cook rule (temperatures °C, holds and D-values in min).
+    t_initial : float
+        Product temperature at loading [°C] (core target of a lethality-only rule).
+    margin_k : float
+        Kelvin added to the core target and table temperatures [K].
+    """
+    from thermal.rules import CookRule, LethalityRule, TimeTemperatureTable
+
+    lethality = None
+    if spec.lethality is not None:
+        L = spec.lethality
+        lethality = LethalityRule(
+            L.organism, minutes_to_seconds(L.d_ref), L.t_ref, L.z, L.log_reduction
+        )
+    table = None
+    if spec.core_temperature is not None:
+        target, hold = spec.core_temperature + margin_k, minutes_to_seconds(spec.hold)
+    elif spec.alternatives:
+        rows = sorted(spec.alternatives, key=lambda a: a.core_temperature)
+        table = TimeTemperatureTable(
+            spec.source,
+            tuple(a.core_temperature + margin_k for a in rows),
+            tuple(minutes_to_seconds(a.hold) for a in rows),
+        )
+        target, hold = rows[0].core_temperature + margin_k, 0.0
+    else:
+        target, hold = t_initial + 0.01, 0.0
+    return CookRule(target, hold, lethality=lethality, table=table)
+
+
+def chill_rule(spec: ChillRuleSpec | FreezeRuleSpec, margin_k: float = 0.0) -> Any:
+    """The :class:`thermal.rules.ChillRule` or ``FreezeRule`` of a scenario rule.
+
+    ``margin_k`` [K] is taken off the exit limit and every step's end
+    temperature (the start temperatures, which open the windows, stay).
+    """
+    from thermal.rules import ChillRule, CoolingStep, FreezeRule
+
+    if isinstance(spec, FreezeRuleSpec):
+        return FreezeRule(spec.core_temperature - margin_k)
+    steps = tuple(
+        CoolingStep(s.start, s.end - margin_k, minutes_to_seconds(s.within)) for s in spec.steps
+    )
+    exit_max = spec.exit_core_temperature
+    return ChillRule(steps, None if exit_max is None else exit_max - margin_k)
+
+
+def _loading_factor(option: Any) -> float:
+    from thermal.convection import DEFAULT_LOADING_FACTOR
+
+    return DEFAULT_LOADING_FACTOR if option.h_factor is None else float(option.h_factor)
+
+
+def tunnel_zones(tunnel: Tunnel, setting: TunnelSetting, loading_factor: float) -> list[Any]:
+    """The :class:`thermal.process.TunnelZone` list of a tunnel setting, in belt order."""
+    from thermal.process import TunnelZone as Zone
+
+    return [
+        Zone(air_setting(z), share, loading_factor)
+        for z, share in zip(setting.zones, tunnel.zone_fractions(setting), strict=True)
+    ]
+
+
+def _transfer(spec: TransferStage | None, minutes: float | None) -> Any:
+    from thermal.process import TransferStage as Stage
+
+    if spec is None or not minutes:
+        return None
+    return Stage(air_setting(spec), minutes_to_seconds(minutes))
+
+
+def _hold_waits(tunnel: Tunnel) -> list[float]:
+    """Waits between oven and belt to check [min]: the transfer and the hot-hold limit."""
+    if tunnel.transfer is None:
+        return [0.0]
+    waits = [tunnel.transfer.duration]
+    if tunnel.hot_hold_max is not None and tunnel.hot_hold_max > tunnel.transfer.duration:
+        waits.append(tunnel.hot_hold_max)
+    return waits
+
+
+# --------------------------------------------------------------------------- cache
+
+
+def _physics_salt() -> str:
+    """Hash of the source code the cached numbers depend on."""
+    root = Path(__file__).resolve().parent.parent
+    digest = hashlib.sha256(CACHE_VERSION.encode())
+    for path in [*sorted((root / "thermal").glob("*.py")), Path(__file__).resolve()]:
+        try:
+            digest.update(path.name.encode())
+            digest.update(path.read_bytes())
+        except OSError:
+            continue
+    return digest.hexdigest()
+
+
+def _canonical(data: Any) -> str:
+    return json.dumps(data, sort_keys=True, separators=(",", ":"), allow_nan=True)
+
+
+def dwell_cache_key(data: Any, salt: str) -> str:
+    """SHA-256 of the canonical JSON of ``data`` and ``salt`` (hex)."""
+    return hashlib.sha256((salt + _canonical(data)).encode()).hexdigest()
+
+
+def _read(cache: Path | None, name: str) -> Any:
+    if cache is None:
+        return None
+    path = cache / name
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+
+
+def _write(cache: Path | None, name: str, data: Any) -> None:
+    if cache is None:
+        return
+    cache.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{name}.", dir=cache)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            json.dump(data, fh, allow_nan=True)
+        os.replace(tmp, cache / name)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+# ------------------------------------------------------------------------ the cells
+
+
+def _product_inputs(product: Product) -> dict[str, Any]:
+    return product.model_dump(
+        mode="json",
+        include={
+            "geometry",
+            "composition",
+            "properties",
+            "freezing_point",
+            "initial_temperature",
+            "emissivity",
+        },
+    ) | {"largest": product.geometry.largest_dims(), "shape": product.geometry.shape}
+
+
+def _cook_inputs(
+    scenario: Scenario, product: Product, setting: OvenSetting, options: SolverOptions
+) -> dict[str, Any]:
+    return {
+        "kind": "cook",
+        "product": _product_inputs(product),
+        "air": setting.model_dump(mode="json", exclude={"name"}),
+        "rule": scenario.cook_rule(product).model_dump(mode="json", exclude={"source", "note"}),
+        "margin": scenario.safety_margin.model_dump(mode="json"),
+        "options": options.__dict__,
+    }
+
+
+def _chill_inputs(
+    scenario: Scenario,
+    product: Product,
+    cook_key: str,
+    tunnel: Tunnel,
+    setting: TunnelSetting,
+    factor: float,
+    options: SolverOptions,
+) -> dict[str, Any]:
+    return {
+        "kind": "chill",
+        "cook": cook_key,
+        "product": _product_inputs(product),
+        "transfer": None if tunnel.transfer is None else tunnel.transfer.model_dump(mode="json"),
+        "waits": _hold_waits(tunnel),
+        "zones": [
+            z.model_dump(mode="json", exclude={"name", "length", "length_fraction"})
+            for z in setting.zones
+        ],
+        "shares": tunnel.zone_fractions(setting),
+        "loading_factor": factor,
+        "rule": scenario.chill_rule(product).model_dump(mode="json", exclude={"source", "note"}),
+        "margin": scenario.safety_margin.model_dump(mode="json"),
+        "options": options.__dict__,
+    }
+
+
+def _notes(caught: Iterable[warnings.WarningMessage]) -> list[str]:
+    out: list[str] = []
+    for w in caught:
+        text = str(w.message)
+        if text not in out:
+            out.append(text)
+    return out
+
+
+def _compute_cook(
+    scenario: Scenario, product: Product, setting: OvenSetting, options: SolverOptions
+) -> dict[str, Any]:
+    """Compute one cook cell (no cache): the result as plain data."""
+    from thermal import process
+
+    margin = scenario.safety_margin
+    rule = cook_rule(
+        scenario.cook_rule(product), product.initial_temperature, margin.core_temperature
+    )
+    piece = thermal_product(product, emissivity=setting.emissivity)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            res = process.required_cook(
+                piece,
+                air_setting(setting),
+                rule,
+                product.initial_temperature,
+                margin=process.Margin(relative=margin.time_fraction),
+                max_dwell=minutes_to_seconds(options.max_dwell_min),
+                n_cells=options.n_cells,
+                steps=options.steps,
+            )
+        except process.InfeasibleRuleError as exc:
+            return {
+                "feasible": False,
+                "minutes": math.nan,
+                "binding": exc.clause,
+                "reason": f"cook: {exc.reason}",
+                "method": "",
+                "heat_in_kj_per_kg": math.nan,
+                "notes": _notes(caught),
+            }
+    profile = res.exit_profile
+    return {
+        "feasible": True,
+        "minutes": seconds_to_minutes(res.dwell),
+        "required_minutes": seconds_to_minutes(res.required_dwell),
+        "binding": res.binding,
+        "reason": "",
+        "method": res.method,
+        "heat_in_kj_per_kg": res.heat_in / 1000.0,
+        "h": res.h,
+        "profile": {
+            "temperature": np.asarray(profile.temperature).tolist(),
+            "density": None if profile.density is None else np.asarray(profile.density).tolist(),
+        },
+        "notes": _notes(caught),
+    }
+
+
+def _compute_chill(
+    scenario: Scenario,
+    product: Product,
+    cook: dict[str, Any],
+    tunnel: Tunnel,
+    setting: TunnelSetting,
+    factor: float,
+    options: SolverOptions,
+) -> dict[str, Any]:
+    """Compute one chill cell from a feasible cook cell (no cache)."""
+    from thermal import numeric, process
+
+    margin = scenario.safety_margin
+    rule = chill_rule(scenario.chill_rule(product), margin.core_temperature)
+    piece = thermal_product(product)
+    prof = cook["profile"]
+    start = numeric.Profile(
+        np.asarray(prof["temperature"], dtype=float),
+        None if prof["density"] is None else np.asarray(prof["density"], dtype=float),
+    )
+    zones = tunnel_zones(tunnel, setting, factor)
+    worst: dict[str, Any] | None = None
+    notes: list[str] = []
+    for wait in _hold_waits(tunnel):
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                res = process.required_chill(
+                    piece,
+                    start,
+                    _transfer(tunnel.transfer, wait),
+                    zones,
+                    rule,
+                    margin=process.Margin(relative=margin.time_fraction),
+                    max_residence=minutes_to_seconds(options.max_residence_min),
+                    n_cells=None,
+                    steps=options.steps,
+                )
+            except process.InfeasibleRuleError as exc:
+                when = f" after a {wait:g} min wait before the belt" if wait else ""
+                return {
+                    "feasible": False,
+                    "minutes": math.nan,
+                    "binding": exc.clause,
+                    "reason": f"chill: {exc.reason}{when}",
+                    "method": "numeric",
+                    "heat_out_kj_per_kg": math.nan,
+                    "notes": notes + _notes(caught),
+                }
+        notes += [n for n in _notes(caught) if n not in notes]
+        cell = {
+            "feasible": True,
+            "minutes": seconds_to_minutes(res.residence),
+            "required_minutes": seconds_to_minutes(res.required_residence),
+            "binding": res.binding,
+            "reason": "",
+            "method": res.method,
+            "heat_out_kj_per_kg": res.heat_out / 1000.0,
+            "wait_min": wait,
+        }
+        if worst is None or cell["minutes"] > worst["minutes"]:
+            worst = cell
+    assert worst is not None
+    worst["notes"] = notes
+    return worst
+
+
+# ------------------------------------------------------------------------ the table
+
+
+def _belt(tunnel: Tunnel, chill_min: float) -> tuple[float, str]:
+    """Fastest belt speed [m/min] for a residence, and the reason when too slow."""
+    fastest = tunnel.length / chill_min
+    if fastest < tunnel.belt_speed_min:
+        return math.nan, (
+            f"belt: the chill needs {chill_min:.1f} min in the tunnel, i.e. a belt at most "
+            f"{fastest:.3g} m/min, below the belt minimum {tunnel.belt_speed_min:g} m/min "
+            f"(at its slowest the {tunnel.length:g} m tunnel gives "
+            f"{tunnel.length / tunnel.belt_speed_min:.1f} min)"
+        )
+    return min(fastest, tunnel.belt_speed_max), ""
+
+
+def _cells(scenario: Scenario) -> list[tuple[Product, Oven, OvenSetting, Tunnel, Any, Any]]:
+    out = []
+    for product in scenario.products:
+        for oven in scenario.ovens:
+            for oset in oven.settings:
+                for tunnel in scenario.feeds(oven.name):
+                    for tset in tunnel.settings:
+                        for loading in tunnel.loadings:
+                            out.append((product, oven, oset, tunnel, tset, loading))
+    return out
+
+
+def build_dwell_table(
+    scenario: Scenario,
+    *,
+    cache_dir: str | Path | None = ".corepace-cache",
+    progress: Progress | None = None,
+    options: SolverOptions | None = None,
+) -> pd.DataFrame:
+    """Build the dwell table of a scenario (or read it from the cache).
+
+    Parameters
+    ----------
+    scenario : Scenario
+        A validated scenario (:func:`optimizer.scenario.load_scenario`).
+    cache_dir : str or Path or None
+        Directory of the on-disk cache; created when first written. ``None``
+        computes everything and writes nothing.
+    progress : callable, optional
+        ``progress(done, total, text)`` after each cell computed or read.
+    options : SolverOptions, optional
+        Numerical options (part of every cache key).
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per (product, oven, oven_setting, tunnel, tunnel_setting,
+        loading) in scenario order, columns :data:`COLUMNS`: minutes [min]
+        (largest piece, margin included; NaN when ruled out), heat
+        [kJ/kg], belt speed [m/min], feasibility and reasons.
+
+    Raises
+    ------
+    thermal.errors.ThermalInputError
+        When the physics refuses an input that validation let through.
+    """
+    options = options or SolverOptions()
+    cache = None if cache_dir is None else Path(cache_dir)
+    salt = _physics_salt()
+    cells = _cells(scenario)
+
+    cook_keys: dict[tuple[str, str, str], str] = {}
+    chill_keys: dict[tuple[str, ...], str] = {}
+    for product, oven, oset, tunnel, tset, loading in cells:
+        ck = (product.name, oven.name, oset.name)
+        if ck not in cook_keys:
+            cook_keys[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
+        factor = _loading_factor(loading)
+        key = (*ck, tunnel.name, tset.name, loading.name)
+        chill_keys[key] = dwell_cache_key(
+            _chill_inputs(scenario, product, cook_keys[ck], tunnel, tset, factor, options), salt
+        )
+    belts = {t.name: (t.length, t.belt_speed_min, t.belt_speed_max) for t in scenario.tunnels}
+    table_key = dwell_cache_key(
+        {"rows": [[*k, v] for k, v in chill_keys.items()], "belts": belts}, salt
+    )
+    cached = _read(cache, f"table-{table_key}.json")
+    if cached is not None:
+        if progress is not None:
+            progress(len(cells), len(cells), "cached")
+        return _frame(cached)
+
+    total = len(cook_keys) + len(chill_keys)
+    done = 0
+    cook_results: dict[tuple[str, str, str], dict[str, Any]] = {}
+    chill_results: dict[str, dict[str, Any]] = {}
+    rows: list[dict[str, Any]] = []
+    for product, oven, oset, tunnel, tset, loading in cells:
+        ck = (product.name, oven.name, oset.name)
+        if ck not in cook_results:
+            name = f"cook-{cook_keys[ck]}.json"
+            result = _read(cache, name)
+            if result is None:
+                result = _compute_cook(scenario, product, oset, options)
+                _write(cache, name, result)
+            cook_results[ck] = result
+            done += 1
+            if progress is not None:
+                progress(done, total, f"{product.name} in {oven.name}/{oset.name}")
+        cook = cook_results[ck]
+        key = chill_keys[(*ck, tunnel.name, tset.name, loading.name)]
+        if not cook["feasible"]:
+            chill = {
+                "feasible": False,
+                "minutes": math.nan,
+                "binding": "",
+                "reason": "not computed: the cook is ruled out",
+                "method": "",
+                "heat_out_kj_per_kg": math.nan,
+                "notes": [],
+            }
+        elif key in chill_results:
+            chill = chill_results[key]
+        else:
+            name = f"chill-{key}.json"
+            chill = _read(cache, name)
+            if chill is None:
+                chill = _compute_chill(
+                    scenario, product, cook, tunnel, tset, _loading_factor(loading), options
+                )
+                _write(cache, name, chill)
+            chill_results[key] = chill
+        done += 1
+        if progress is not None:
+            progress(done, total, f"{product.name} in {tunnel.name}/{tset.name}/{loading.name}")
+        rows.append(_row(product, oven, oset, tunnel, tset, loading, cook, chill))
+    _write(cache, f"table-{table_key}.json", rows)
+    return _frame(rows)
+
+
+def _row(product, oven, oset, tunnel, tset, loading, cook, chill) -> dict[str, Any]:
+    speed, belt_reason = (math.nan, "")
+    if chill["feasible"]:
+        speed, belt_reason = _belt(tunnel, chill["minutes"])
+    reason = cook["reason"] or chill["reason"] or belt_reason
+    notes = list(dict.fromkeys([*cook.get("notes", []), *chill.get("notes", [])]))
+    return {
+        "product": product.name,
+        "oven": oven.name,
+        "oven_setting": oset.name,
+        "tunnel": tunnel.name,
+        "tunnel_setting": tset.name,
+        "loading": loading.name,
+        "cook_min": cook["minutes"],
+        "cook_feasible": bool(cook["feasible"]),
+        "cook_binding": cook["binding"],
+        "cook_reason": cook["reason"],
+        "cook_method": cook["method"],
+        "heat_in_kj_per_kg": cook["heat_in_kj_per_kg"],
+        "chill_min": chill["minutes"],
+        "chill_feasible": bool(chill["feasible"]),
+        "chill_binding": chill["binding"],
+        "chill_reason": chill["reason"],
+        "chill_method": chill["method"],
+        "heat_out_kj_per_kg": chill["heat_out_kj_per_kg"],
+        "max_belt_speed_m_per_min": speed,
+        "feasible": bool(cook["feasible"] and chill["feasible"] and not belt_reason),
+        "reason": reason,
+        "notes": "; ".join(notes),
+    }
+
+
+def _frame(rows: Sequence[dict[str, Any]]) -> pd.DataFrame:
+    frame = pd.DataFrame(list(rows), columns=list(COLUMNS))
+    for c in (
+        "cook_min",
+        "heat_in_kj_per_kg",
+        "chill_min",
+        "heat_out_kj_per_kg",
+        "max_belt_speed_m_per_min",
+    ):
+        frame[c] = frame[c].astype(float)
+    for c in ("cook_feasible", "chill_feasible", "feasible"):
+        frame[c] = frame[c].astype(bool)
+    return frame
+
+
+# ---------------------------------------------------------------------- rendering
+
+
+def render_dwell_table(table: pd.DataFrame, *, title: str = "Dwell table") -> Any:
+    """The dwell table as a :class:`rich.table.Table` for the terminal.
+
+    One line per row: the keys, cook and chill minutes with the method and the
+    binding clause, the fastest belt speed, and for ruled-out rows the
+    reason. Ruled-out rows are dimmed.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A dwell table (:func:`build_dwell_table`).
+    title : str
+        Title printed above the table.
+    """
+    from rich.table import Table
+
+    out = Table(title=title, title_justify="left", header_style="bold")
+    for label, justify in (
+        ("product", "left"),
+        ("oven / setting", "left"),
+        ("tunnel / setting / loading", "left"),
+        ("cook min", "right"),
+        ("chill min", "right"),
+        ("belt ≤ m/min", "right"),
+        ("binds / why not", "left"),
+    ):
+        out.add_column(label, justify=justify, overflow="fold")
+
+    def minutes(value: float, method: str) -> str:
+        if not math.isfinite(value):
+            return "—"
+        return f"{value:.1f}" + (f" ({method[0]})" if method else "")
+
+    for r in table.itertuples(index=False):
+        if r.feasible:
+            status = f"cook: {r.cook_binding}; chill: {r.chill_binding}"
+        else:
+            status = r.reason
+        out.add_row(
+            r.product,
+            f"{r.oven} / {r.oven_setting}",
+            f"{r.tunnel} / {r.tunnel_setting} / {r.loading}",
+            minutes(r.cook_min, r.cook_method),
+            minutes(r.chill_min, r.chill_method),
+            "—"
+            if not math.isfinite(r.max_belt_speed_m_per_min)
+            else f"{r.max_belt_speed_m_per_min:.2f}",
+            status,
+            style=None if r.feasible else "dim",
+        )
+    out.caption = (
+        "(s) exact series, (n) finite volumes; largest piece, safety margin included. "
+        "Model estimates: validate with probes against the plant's food-safety plan."
+    )
+    return out
+
+
+def write_dwell_csv(table: pd.DataFrame, path: str | Path) -> Path:
+    """Write the dwell table as CSV (UTF-8, header row), atomically.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A dwell table.
+    path : str or Path
+        Destination file; its directory must exist.
+
+    Returns
+    -------
+    Path
+        The file written.
+    """
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            table.to_csv(fh, index=False, float_format="%.6g")
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
