@@ -96,6 +96,19 @@ def tool_version() -> str:
         return "unknown"
 
 
+def resolved_sha256(scenario: Any) -> str:
+    """SHA-256 of a validated scenario's content, after ``extends`` and ``--set``.
+
+    The scenario is written as canonical JSON (sorted keys, documented units)
+    and hashed, so two runs of the same plant data give the same hash
+    whatever file layout or overrides produced it.
+    """
+    from optimizer.scenario import scenario_to_dict
+
+    text = json.dumps(scenario_to_dict(scenario), sort_keys=True, separators=(",", ":"))
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
 def file_sha256(path: str | os.PathLike[str]) -> str:
     """SHA-256 of a file's bytes, as hex.
 
@@ -294,9 +307,13 @@ def _problems(exc: BaseException) -> list[str]:
 def out_dir(args: argparse.Namespace, scenario_path: str | None) -> Path:
     """The output directory of a run: ``--out`` or ``corepace-out/<scenario stem>``."""
     if args.out:
-        return Path(args.out)
-    stem = Path(scenario_path).stem if scenario_path else "run"
-    return Path(DEFAULT_OUT) / stem
+        target = Path(args.out)
+    else:
+        stem = Path(scenario_path).stem if scenario_path else "run"
+        target = Path(DEFAULT_OUT) / stem
+    if target.exists() and not target.is_dir():
+        raise BadInput([f"--out {target}: exists and is not a directory; give a directory path"])
+    return target
 
 
 def _prepare_out(path: Path) -> Path:
@@ -405,6 +422,8 @@ class PlanRun:
         Scenario file as given.
     sha256 : str
         Hash of the scenario file.
+    resolved_sha256 : str
+        Hash of the validated scenario content (:func:`resolved_sha256`).
     scenario : optimizer.scenario.Scenario
         The validated scenario.
     dwell : pandas.DataFrame
@@ -419,6 +438,7 @@ class PlanRun:
 
     path: str
     sha256: str
+    resolved_sha256: str
     scenario: Any
     dwell: pd.DataFrame
     inputs: Any
@@ -895,7 +915,16 @@ def run_plan(path: str, scenario: Any, args: argparse.Namespace, ui: Ui) -> Plan
     planned = sorted({o.product for o in inputs.orders})
     tables["rules"] = rules_table(scenario, planned)
     tables["dwell_used"] = dwell_used_table(dwell, result)
-    return PlanRun(path, file_sha256(path), scenario, dwell, inputs, result, tables)
+    return PlanRun(
+        path,
+        file_sha256(path),
+        resolved_sha256(scenario),
+        scenario,
+        dwell,
+        inputs,
+        result,
+        tables,
+    )
 
 
 def _status_code(result: Any) -> int:
@@ -921,6 +950,7 @@ def plan_json(run: PlanRun, files: Sequence[Path]) -> dict[str, Any]:
     return {
         "scenario": run.path,
         "scenario_sha256": run.sha256,
+        "scenario_content_sha256": run.resolved_sha256,
         "tool_version": tool_version(),
         "status": r.status.value,
         "objective": r.objective.value,
@@ -939,16 +969,29 @@ def plan_json(run: PlanRun, files: Sequence[Path]) -> dict[str, Any]:
     }
 
 
-def _run_info(run: PlanRun, argv_text: str) -> Any:
+def made_at() -> str:
+    """The time written into reports (UTC).
+
+    ``SOURCE_DATE_EPOCH`` (seconds since 1970, the reproducible-builds
+    convention) replaces the clock when set, so a report regenerated from the
+    same inputs is byte-for-byte the same file.
+    """
     from datetime import UTC, datetime
 
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    when = datetime.fromtimestamp(int(epoch), UTC) if epoch.isdigit() else datetime.now(UTC)
+    return when.strftime("%Y-%m-%d %H:%M UTC")
+
+
+def _run_info(run: PlanRun, argv_text: str) -> Any:
     from optimizer.report import RunInfo
 
     return RunInfo(
         scenario_path=run.path,
         scenario_sha256=run.sha256,
+        resolved_sha256=run.resolved_sha256,
         tool_version=tool_version(),
-        generated=datetime.now(UTC).strftime("%Y-%m-%d %H:%M UTC"),
+        generated=made_at(),
         plant=getattr(run.scenario, "plant", Path(run.path).stem),
         command=argv_text,
     )
@@ -1385,15 +1428,13 @@ def capacity_report(
     path: str, scenario: Any, cap: CapacityResult, tables: Mapping[str, pd.DataFrame], command: str
 ) -> str:
     """The HTML page of a capacity run."""
-    from datetime import UTC, datetime
-
     from optimizer.report import SAFETY_CAUTION, HtmlReport, utilisation_figure
     from optimizer.results import bottleneck
 
     plant = getattr(scenario, "plant", Path(path).stem)
     report = HtmlReport(
         f"Capacity with a fixed mix — {plant}",
-        f"Scenario {path} · made {datetime.now(UTC).strftime('%Y-%m-%d %H:%M UTC')}",
+        f"Scenario {path} · made {made_at()}",
     )
     report.caution("Food safety", SAFETY_CAUTION)
     report.section("Capacity")
@@ -1500,7 +1541,6 @@ def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFram
         "per extra hour",
         [b.per_hour if b else None for b in bns],
     )
-    add("solve seconds", "s", [run.result.build_seconds + run.result.solve_seconds for run in runs])
     data = {"figure": [r[0] for r in rows], "unit": [r[1] for r in rows]}
     for i, label in enumerate(labels):
         data[label] = [r[2][i] for r in rows]
@@ -1511,15 +1551,13 @@ def compare_report(
     runs: Sequence[PlanRun], labels: Sequence[str], table: pd.DataFrame, command: str
 ) -> str:
     """The HTML page comparing several scenarios."""
-    from datetime import UTC, datetime
-
     from matplotlib.figure import Figure
 
     from optimizer.report import BAR_COLOURS, SAFETY_CAUTION, HtmlReport
 
     report = HtmlReport(
         "Scenario comparison",
-        f"{len(runs)} scenarios · made {datetime.now(UTC).strftime('%Y-%m-%d %H:%M UTC')}",
+        f"{len(runs)} scenarios · made {made_at()}",
     )
     report.caution("Food safety", SAFETY_CAUTION)
     report.section("Side by side")
@@ -1571,7 +1609,7 @@ def cmd_compare(args: argparse.Namespace, ui: Ui) -> int:
     if problems:
         raise BadInput(problems)
     labels = _labels(args.scenarios)
-    target = Path(args.out) if args.out else Path(DEFAULT_OUT) / "compare"
+    target = out_dir(args, "compare")
     runs = [
         run_plan(path, scenario, args, ui)
         for path, scenario in zip(args.scenarios, scenarios, strict=True)

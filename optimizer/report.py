@@ -844,6 +844,9 @@ class RunInfo:
         Plant name from the scenario.
     command : str
         Command line that produced the report.
+    resolved_sha256 : str
+        SHA-256 of the validated scenario content (after ``extends`` and
+        ``--set`` changes), "" when not known.
     """
 
     scenario_path: str
@@ -852,6 +855,7 @@ class RunInfo:
     generated: str
     plant: str
     command: str = ""
+    resolved_sha256: str = ""
 
 
 def shift_timelines(result: Any, inputs: Any) -> dict[str, list[TimelineBar]]:
@@ -1110,13 +1114,7 @@ def plan_report(
         pairs.append(("its mean utilisation", f"{100 * bn.utilisation:.0f} %"))
     if result.gap is not None:
         pairs.append(("relative gap", f"{100 * result.gap:.3f} %"))
-    pairs.append(
-        (
-            "solver",
-            f"{result.solver}; build {result.build_seconds:.2f} s, "
-            f"solve {result.solve_seconds:.2f} s",
-        )
-    )
+    pairs.append(("solver", result.solver))
     report.key_values(pairs)
     if not status.has_plan:
         report.note(
@@ -1261,7 +1259,9 @@ def plan_report(
         css_class="sub",
     )
     report.footer("scenario", info.scenario_path)
-    report.footer("scenario sha256", info.scenario_sha256)
+    report.footer("scenario file sha256", info.scenario_sha256)
+    if info.resolved_sha256:
+        report.footer("scenario content sha256 (after extends and --set)", info.resolved_sha256)
     report.footer("corepace version", info.tool_version)
     report.footer("made (UTC)", info.generated)
     if info.command:

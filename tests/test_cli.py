@@ -1,41 +1,491 @@
 """End-to-end tests of the ``corepace`` command.
 
-Most tests call :func:`optimizer.cli.main` in-process (fast); one runs the
-installed console script in a subprocess.
+Most tests call :func:`optimizer.cli.main` in-process (fast); two run the
+installed console script and ``python -m optimizer`` in a subprocess. The
+demo scenario's dwell table is computed once per session into a shared
+temporary cache; every later command reads it from there.
+
+Reports are read back with the standard library's ``html.parser``, an
+independent reader: the test checks that the tables in the HTML hold exactly
+the values of the exported CSV files, and that every plot is a real PNG.
 """
 
 from __future__ import annotations
 
+import base64
+import hashlib
 import json
+import math
 import subprocess
 import sys
+from html.parser import HTMLParser
 from pathlib import Path
 
+import pandas as pd
 import pytest
+import yaml
 
-from optimizer.cli import EXIT_BAD_INPUT, EXIT_OK, main
+from optimizer.cli import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "configs" / "demo.yaml"
+PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
+PLAN_TABLES = (
+    "ovens",
+    "tunnels",
+    "totals",
+    "utilisation",
+    "shadow_prices",
+    "slack",
+    "shortfalls",
+    "rules",
+    "dwell_used",
+)
 
 
-def run(capsys, *argv: str) -> tuple[int, str, str]:
+def run(capsys, *argv: object) -> tuple[int, str, str]:
     code = main([str(a) for a in argv])
     captured = capsys.readouterr()
     return code, captured.out, captured.err
 
 
-def tree(path: Path) -> list[str]:
+def files_under(path: Path) -> list[str]:
     return sorted(str(p.relative_to(path)) for p in path.rglob("*")) if path.exists() else []
+
+
+def sha256(path: Path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+class Page(HTMLParser):
+    """Tables (rows of ``data-value`` strings, parts joined) and images of a report."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.columns: dict[str, list[str]] = {}
+        self.rows: dict[str, list[list[str]]] = {}
+        self.images: list[dict[str, str]] = []
+        self.external: list[str] = []
+        self._table: str | None = None
+        self._row: list[str] | None = None
+        self._head = False
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "table":
+            self._table = a["data-table"]
+            self.rows.setdefault(self._table, [])
+            self.columns[self._table] = []
+        elif tag == "thead":
+            self._head = True
+        elif tag == "tbody":
+            self._head = False
+        elif tag == "th" and self._head and self._table:
+            self.columns[self._table].append(a["data-column"])
+        elif tag == "tr" and self._table and not self._head:
+            self._row = []
+        elif tag == "td" and self._row is not None and "data-value" in a:
+            self._row.append(a["data-value"])
+        elif tag == "img":
+            self.images.append(a)
+        for key in ("src", "href"):
+            if a.get(key) and not a[key].startswith(("data:", "#")):
+                self.external.append(a[key])
+
+    def handle_endtag(self, tag):
+        if tag == "tr" and self._row is not None:
+            if self._row:
+                self.rows[self._table].append(self._row)
+            self._row = None
+        elif tag == "table":
+            self._table = None
+
+
+def read_page(path: Path) -> Page:
+    page = Page()
+    page.feed(path.read_text(encoding="utf-8"))
+    page.close()
+    return page
+
+
+def same_cell(html_value: str, csv_value: object) -> bool:
+    """A report cell's exact value against the CSV cell read back by pandas."""
+    if csv_value is None or (isinstance(csv_value, float) and math.isnan(csv_value)):
+        return html_value == ""
+    if isinstance(csv_value, bool):
+        return html_value == ("true" if csv_value else "false")
+    if isinstance(csv_value, int | float):
+        return html_value != "" and float(html_value) == float(csv_value)
+    return html_value == str(csv_value)
+
+
+def assert_report_table_equals_csv(page: Page, name: str, csv_path: Path) -> None:
+    table = pd.read_csv(csv_path, keep_default_na=True)
+    assert page.columns[name] == list(table.columns), name
+    html_rows = page.rows[name]
+    assert len(html_rows) == len(table), name
+    csv_rows = [list(r) for r in table.itertuples(index=False, name=None)]
+    # per-shift parts come out grouped by shift: compare as multisets of rows
+    key = repr
+    unmatched = sorted(html_rows, key=key)
+    for row in csv_rows:
+        hit = next(
+            (
+                i
+                for i, h in enumerate(unmatched)
+                if all(same_cell(a, b) for a, b in zip(h, row, strict=True))
+            ),
+            None,
+        )
+        assert hit is not None, f"{name}: CSV row {row} not in the report"
+        unmatched.pop(hit)
+    assert not unmatched
+
+
+# ---------------------------------------------------------------------------
+# fixtures: one cold dwell table for the session, then one plan run
+# ---------------------------------------------------------------------------
+
+
+@pytest.fixture(scope="session")
+def cache(tmp_path_factory) -> Path:
+    return tmp_path_factory.mktemp("dwell-cache")
+
+
+@pytest.fixture(scope="session")
+def demo_plan(tmp_path_factory, cache):
+    """``corepace plan demo --json`` into a fresh directory (created by the command)."""
+    out = tmp_path_factory.mktemp("plan") / "new" / "dir"
+    before = (sha256(DEMO), DEMO.stat().st_mtime_ns)
+    code = main(["plan", str(DEMO), "--out", str(out), "--cache-dir", str(cache), "--json"])
+    return code, out, before
+
+
+def test_plan_demo_exit_code_and_files(demo_plan):
+    code, out, before = demo_plan
+    assert code == EXIT_OK
+    names = set(files_under(out))
+    expected = {f"{t}.csv" for t in PLAN_TABLES} | {
+        "plan.xlsx",
+        "plan.json",
+        "dwell.csv",
+        "report.html",
+    }
+    assert expected <= names
+    assert not [n for n in names if n.endswith(".tmp")]
+    assert (sha256(DEMO), DEMO.stat().st_mtime_ns) == before  # input untouched
+
+
+def test_plan_demo_report_tables_equal_exported_tables(demo_plan):
+    _, out, _ = demo_plan
+    page = read_page(out / "report.html")
+    assert page.external == []
+    for name in PLAN_TABLES:
+        if name in page.rows:
+            assert_report_table_equals_csv(page, name, out / f"{name}.csv")
+    # the plan tables a planner needs are all in the report
+    for name in ("totals", "utilisation", "shadow_prices", "ovens", "tunnels", "rules"):
+        assert name in page.rows, name
+    assert len(page.rows["ovens"]) > 0 and len(page.rows["tunnels"]) > 0
+
+
+def test_plan_demo_every_plot_present_and_drawn(demo_plan):
+    _, out, _ = demo_plan
+    page = read_page(out / "report.html")
+    tunnels = pd.read_csv(out / "tunnels.csv")
+    shifts = tunnels["shift"].unique()
+    products = tunnels["product"].unique()
+    # utilisation + a timeline per shift + a temperature plot per planned product
+    assert len(page.images) == 1 + len(shifts) + len(products)
+    for image in page.images:
+        assert image["src"].startswith("data:image/png;base64,")
+        png = base64.b64decode(image["src"].split(",", 1)[1])
+        assert png.startswith(PNG_MAGIC) and len(png) > 5000
+        assert image.get("alt")
+    text = (out / "report.html").read_text(encoding="utf-8")
+    for product in products:
+        assert f'data-figure="temperatures-{product}"' in text
+    for shift in shifts:
+        assert f'data-figure="timeline-{shift}"' in text
+
+
+def test_plan_demo_report_carries_caution_hash_and_version(demo_plan):
+    _, out, _ = demo_plan
+    text = (out / "report.html").read_text(encoding="utf-8")
+    assert sha256(DEMO) in text
+    from optimizer.cli import tool_version
+
+    assert tool_version() in text
+    for phrase in (
+        "model estimates",
+        "food-safety plan",
+        "local regulator",
+        "calibrated probes",
+        "largest piece",
+    ):
+        assert phrase in text
+    rules = pd.read_csv(out / "rules.csv")
+    assert rules["cook_source"].str.len().min() > 0
+    assert rules["chill_source"].str.len().min() > 0
+
+
+def test_plan_demo_xlsx_has_every_table(demo_plan):
+    _, out, _ = demo_plan
+    sheets = pd.read_excel(out / "plan.xlsx", sheet_name=None)
+    assert set(PLAN_TABLES) <= set(sheets)
+    ovens = pd.read_csv(out / "ovens.csv")
+    pd.testing.assert_frame_equal(sheets["ovens"], ovens, check_dtype=False)
+
+
+def test_plan_json_file_matches_tables(demo_plan):
+    _, out, _ = demo_plan
+    data = json.loads((out / "plan.json").read_text())
+    assert data["status"] in ("optimal", "feasible_with_gap")
+    assert data["scenario_sha256"] == sha256(DEMO)
+    tunnels = pd.read_csv(out / "tunnels.csv")
+    assert data["total_kg"] == pytest.approx(tunnels["kg"].sum(), rel=1e-9)
+    for name in PLAN_TABLES:
+        table = pd.read_csv(out / f"{name}.csv")
+        records = data["tables"][name]
+        assert len(records) == len(table), name
+        if len(table):
+            assert list(records[0]) == list(table.columns)
+
+
+def test_plan_json_on_stdout_parses_and_matches(tmp_path, cache, capsys, demo_plan):
+    out = tmp_path / "again"
+    code, stdout, _ = run(capsys, "plan", DEMO, "--out", out, "--cache-dir", cache, "--json")
+    assert code == EXIT_OK
+    data = json.loads(stdout)  # nothing but JSON on stdout (solver banner included)
+    ovens = pd.read_csv(out / "ovens.csv")
+    got = pd.DataFrame(data["tables"]["ovens"])
+    pd.testing.assert_frame_equal(got, ovens, check_dtype=False)
+    # same input, same plan
+    first = json.loads((demo_plan[1] / "plan.json").read_text())
+    assert data["objective_value"] == pytest.approx(first["objective_value"], rel=1e-9)
+    assert data["tables"]["tunnels"] == first["tables"]["tunnels"]
+
+
+def test_plan_prints_summary_for_people(tmp_path, cache, capsys, demo_plan):
+    code, stdout, _ = run(capsys, "plan", DEMO, "--out", tmp_path, "--cache-dir", cache)
+    assert code == EXIT_OK
+    assert "Plan status" in stdout and "Bottleneck" in stdout
+    assert "report.html" in stdout
+
+
+# ---------------------------------------------------------------------------
+# bad input: exit 2, one line per problem, nothing written
+# ---------------------------------------------------------------------------
+
+
+def broken_demo(tmp_path: Path) -> Path:
+    data = yaml.safe_load(DEMO.read_text())
+    data["products"][1]["geometry"]["diameter"] = "-24 mm"
+    data["ovens"][0]["settings"][0]["air_temperature"] = "3 m/s"
+    data["orders"].append({"product": "no-such-product", "min_kg": 10})
+    path = tmp_path / "broken.yaml"
+    path.write_text(yaml.safe_dump(data, sort_keys=False))
+    return path
+
+
+@pytest.mark.parametrize("command", ["validate", "dwell", "plan", "capacity"])
+def test_bad_scenario_is_exit_2_one_line_per_problem_nothing_written(command, tmp_path, capsys):
+    scenario = broken_demo(tmp_path)
+    before = sha256(scenario)
+    out = tmp_path / "out"
+    cache = tmp_path / "cache"
+    argv = [command, scenario]
+    if command != "validate":
+        argv += ["--out", out, "--cache-dir", cache]
+    code, stdout, stderr = run(capsys, *argv)
+    assert code == EXIT_BAD_INPUT
+    lines = stderr.strip().splitlines()
+    assert len(lines) >= 3
+    assert "Traceback" not in stderr
+    assert all(line.startswith(f"{scenario}: ") for line in lines)
+    joined = "\n".join(lines)
+    assert "products[1]" in joined
+    assert "ovens[0]" in joined
+    assert "no-such-product" in joined
+    assert not out.exists() and not cache.exists()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["broken.yaml"]
+    assert sha256(scenario) == before
+    assert stdout == ""
+
+
+def test_bad_scenario_with_json_lists_the_same_problems(tmp_path, capsys):
+    scenario = broken_demo(tmp_path)
+    code, stdout, stderr = run(capsys, "validate", scenario, "--json")
+    assert code == EXIT_BAD_INPUT
+    data = json.loads(stdout)
+    assert data["status"] == "bad_input"
+    assert data["problems"] == stderr.strip().splitlines()
+
+
+def test_out_that_is_a_file_is_bad_input(tmp_path, capsys):
+    afile = tmp_path / "taken"
+    afile.write_text("x")
+    cache = tmp_path / "cache"
+    code, _, stderr = run(capsys, "dwell", DEMO, "--out", afile, "--cache-dir", cache)
+    assert code == EXIT_BAD_INPUT
+    assert stderr.strip().splitlines() == [
+        f"--out {afile}: exists and is not a directory; give a directory path"
+    ]
+    assert afile.read_text() == "x"
+    assert not cache.exists()
+
+
+def test_bad_options_are_exit_2(tmp_path, capsys):
+    code, _, err = run(capsys, "plan", DEMO, "--time-limit", "-3", "--out", tmp_path / "o")
+    assert code == EXIT_BAD_INPUT
+    assert "--time-limit" in err and "> 0" in err
+    code, _, err = run(capsys, "capacity", DEMO, "--mix", "ham=1", "--out", tmp_path / "o")
+    assert code == EXIT_BAD_INPUT
+    assert err.strip().startswith("--mix: 'ham' is not a product; known:")
+    code, _, err = run(capsys, "plan", DEMO, "--set", "nonsense", "--out", tmp_path / "o")
+    assert code == EXIT_BAD_INPUT
+    assert "--set" in err
+    assert not (tmp_path / "o").exists()
+
+
+def test_missing_scenario_file(capsys, tmp_path):
+    code, _, err = run(capsys, "dwell", tmp_path / "absent.yaml", "--out", tmp_path / "o")
+    assert code == EXIT_BAD_INPUT
+    assert err.strip().splitlines() == [f"{tmp_path / 'absent.yaml'}: no such file"]
+    assert not (tmp_path / "o").exists()
+
+
+# ---------------------------------------------------------------------------
+# no feasible plan: exit 1 with the diagnosis
+# ---------------------------------------------------------------------------
+
+
+def test_infeasible_orders_exit_1_with_diagnosis(tmp_path, cache, capsys, demo_plan):
+    out = tmp_path / "out"
+    code, stdout, stderr = run(
+        capsys,
+        "plan",
+        DEMO,
+        "--set",
+        "orders.0.min_kg=500000 kg",
+        "--set",
+        "orders.0.max_kg=600000 kg",
+        "--out",
+        out,
+        "--cache-dir",
+        cache,
+        "--quiet",
+    )
+    assert code == EXIT_NO_PLAN
+    shortfalls = [line for line in stderr.splitlines() if line.startswith("shortfall: ")]
+    assert shortfalls, stderr
+    assert "chicken-fillet" in "\n".join(shortfalls)
+    table = pd.read_csv(out / "shortfalls.csv")
+    assert len(table) == len(shortfalls)
+    page = read_page(out / "report.html")
+    assert len(page.rows["shortfalls"]) == len(table)
+    assert "no feasible plan" in stdout
+
+
+# ---------------------------------------------------------------------------
+# other commands
+# ---------------------------------------------------------------------------
+
+
+def test_validate_demo(capsys):
+    code, stdout, stderr = run(capsys, "validate", DEMO)
+    assert code == EXIT_OK
+    assert stdout.startswith(f"{DEMO}: valid (")
+    assert stderr == ""
+
+
+def test_dwell_writes_csv_and_prints_table(tmp_path, cache, capsys, demo_plan):
+    code, stdout, _ = run(capsys, "dwell", DEMO, "--out", tmp_path, "--cache-dir", cache)
+    assert code == EXIT_OK
+    table = pd.read_csv(tmp_path / "dwell.csv")
+    plan_dwell = pd.read_csv(demo_plan[1] / "dwell.csv")
+    pd.testing.assert_frame_equal(table, plan_dwell)
+    assert {"product", "cook_min", "chill_min", "feasible", "reason"} <= set(table.columns)
+    for product in table["product"].unique():
+        assert product in stdout
+    # every ruled-out row says why
+    assert (table.loc[~table["feasible"], "reason"].fillna("").str.len() > 0).all()
+
+
+def test_schema_is_json_schema(capsys, tmp_path):
+    code, stdout, _ = run(capsys, "schema")
+    assert code == EXIT_OK
+    schema = json.loads(stdout)
+    assert schema.get("type") == "object"
+    assert {"ovens", "tunnels", "products", "shifts"} <= set(schema["properties"])
+    code, _, _ = run(capsys, "schema", "--out", tmp_path / "s")
+    assert code == EXIT_OK
+    assert json.loads((tmp_path / "s" / "scenario.schema.json").read_text()) == schema
+
+
+def test_capacity_with_fixed_mix(tmp_path, cache, capsys, demo_plan):
+    out = tmp_path / "cap"
+    code, stdout, _ = run(
+        capsys,
+        "capacity",
+        DEMO,
+        "--mix",
+        "pork-sausage=2,ham-log=1",
+        "--out",
+        out,
+        "--cache-dir",
+        cache,
+        "--json",
+    )
+    assert code == EXIT_OK
+    data = json.loads(stdout)
+    assert data["mix"] == pytest.approx({"pork-sausage": 2 / 3, "ham-log": 1 / 3})
+    assert data["total_kg"] > 0
+    assert data["kg_per_hour"] * data["horizon_hours"] == pytest.approx(data["total_kg"])
+    assert data["total_kg"] <= data["free_mix_kg"] * (1 + 1e-9)
+    # the plan at capacity makes the products in the fixed proportions
+    totals = pd.read_csv(out / "totals.csv").set_index("product")["total"]
+    assert totals.sum() == pytest.approx(data["total_kg"], rel=1e-6)
+    assert totals["pork-sausage"] / totals.sum() == pytest.approx(2 / 3, rel=1e-6)
+    assert set(totals.index) == {"pork-sausage", "ham-log"}
+    assert (out / "capacity.html").exists() and (out / "capacity.xlsx").exists()
+    page = read_page(out / "capacity.html")
+    assert_report_table_equals_csv(page, "capacity_mix", out / "capacity_mix.csv")
+
+
+def test_compare_two_scenarios(tmp_path, cache, capsys, demo_plan):
+    data = yaml.safe_load(DEMO.read_text())
+    data["tunnels"][0]["length"] = "30 m"
+    longer = tmp_path / "longer-tunnel.yaml"
+    longer.write_text(yaml.safe_dump(data, sort_keys=False))
+    out = tmp_path / "cmp"
+    code, stdout, _ = run(
+        capsys, "compare", DEMO, longer, "--out", out, "--cache-dir", cache, "--json"
+    )
+    assert code == EXIT_OK
+    result = json.loads(stdout)
+    assert [s["label"] for s in result["scenarios"]] == ["demo", "longer-tunnel"]
+    table = pd.read_csv(out / "compare.csv")
+    assert list(table.columns) == ["figure", "unit", "demo", "longer-tunnel"]
+    total = table.set_index("figure").loc["total kg"]
+    assert float(total["demo"]) == pytest.approx(result["scenarios"][0]["total_kg"])
+    assert float(total["longer-tunnel"]) == pytest.approx(result["scenarios"][1]["total_kg"])
+    page = read_page(out / "compare.html")
+    assert_report_table_equals_csv(page, "compare", out / "compare.csv")
 
 
 def test_help_lists_every_command_with_examples(capsys):
     code, out, _ = run(capsys, "--help")
     assert code == EXIT_OK
-    for command in ("validate", "dwell", "schema"):
+    for command in ("validate", "dwell", "plan", "capacity", "compare", "schema"):
         assert command in out
-    assert "examples:" in out
-    assert "exit codes" in out
+    assert "examples:" in out and "exit codes" in out
+    for command in ("plan", "capacity", "compare", "dwell"):
+        code, text, _ = run(capsys, command, "--help")
+        assert code == EXIT_OK
+        assert "examples:" in text
+        for option in ("--out", "--quiet", "--json"):
+            assert option in text
 
 
 def test_usage_error_is_exit_2(capsys):
@@ -44,33 +494,34 @@ def test_usage_error_is_exit_2(capsys):
     assert "invalid choice" in err
 
 
-def test_missing_scenario_file_is_one_line_exit_2_and_writes_nothing(capsys, tmp_path):
-    out = tmp_path / "out"
-    code, _, err = run(capsys, "dwell", tmp_path / "absent.yaml", "--out", out)
-    assert code == EXIT_BAD_INPUT
-    assert err.strip().splitlines() == [f"{tmp_path / 'absent.yaml'}: no such file"]
-    assert "Traceback" not in err
-    assert not out.exists()
+# ---------------------------------------------------------------------------
+# the installed command
+# ---------------------------------------------------------------------------
 
 
-def test_bad_input_with_json_gives_parseable_problems(capsys, tmp_path):
-    code, stdout, err = run(capsys, "validate", tmp_path, "--json")
-    assert code == EXIT_BAD_INPUT
-    data = json.loads(stdout)
-    assert data["status"] == "bad_input"
-    assert data["problems"] == err.strip().splitlines()
-    assert "is a directory" in data["problems"][0]
-
-
-def test_console_script_runs(tmp_path):
+def test_console_script_validates_demo():
     exe = Path(sys.executable).with_name("corepace")
-    if not exe.exists():
-        pytest.skip("console script not installed in this environment")
+    assert exe.exists(), "the corepace console script is not installed in this environment"
     result = subprocess.run(
-        [str(exe), "validate", str(tmp_path / "absent.yaml")],
+        [str(exe), "validate", str(DEMO), "--json"],
         capture_output=True,
         text=True,
         timeout=120,
+        check=False,
+    )
+    assert result.returncode == EXIT_OK, result.stderr
+    data = json.loads(result.stdout)
+    assert data["valid"] is True and data["products"] >= 6
+
+
+def test_python_dash_m_reports_bad_input(tmp_path):
+    result = subprocess.run(
+        [sys.executable, "-m", "optimizer", "validate", str(broken_demo(tmp_path))],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
     )
     assert result.returncode == EXIT_BAD_INPUT
-    assert result.stderr.strip() == f"{tmp_path / 'absent.yaml'}: no such file"
+    assert len(result.stderr.strip().splitlines()) >= 3
+    assert "Traceback" not in result.stderr
