@@ -77,6 +77,7 @@ from thermal import lethality, numeric, series
 from thermal._checks import nonnegative, positive, temperature_c
 from thermal.errors import ThermalInputError, UnreachableTargetError
 from thermal.rules import (
+    TOLERANCE_K,
     ChillRule,
     CookRule,
     FreezeRule,
@@ -108,6 +109,9 @@ DEFAULT_CELLS = {1: 24, 2: 14, 3: 10}
 
 DEFAULT_STEPS = 60
 """Time steps over a whole run (split over segments by duration, at least 3 each)."""
+
+MIN_DWELL = 1.0
+"""Shortest dwell or residence reported [s] (a rule met at loading still gets 1 s)."""
 
 _SEARCH_STEPS = 30
 _FINE_POINTS = 20
@@ -718,18 +722,23 @@ def _cook_series(product, stage, rule, t0, surf, cells, margin) -> CookResult:
     rho = float(props.density(t0))
     cp = float(props.specific_heat(t0))
     alpha = k / (rho * cp)
-    required = float(
-        geometry.time_to_temperature(
-            product.geometry,
-            k=k,
-            h=surf.h,
-            t_initial=t0,
-            t_air=surf.t_air,
-            t_target=rule.core_target,
-            alpha=alpha,
+    required = (
+        0.0
+        if t0 >= rule.core_target
+        else float(
+            geometry.time_to_temperature(
+                product.geometry,
+                k=k,
+                h=surf.h,
+                t_initial=t0,
+                t_air=surf.t_air,
+                t_target=rule.core_target,
+                alpha=alpha,
+            )
         )
     )
-    dwell = margin.apply(required)
+    required = max(required, 0.0)
+    dwell = max(margin.apply(required), MIN_DWELL)
     times = np.linspace(0.0, dwell, _SERIES_SAMPLES)
     lengths = [length for _, length in product.geometry.directions]
     shortest = int(np.argmin(lengths))
@@ -873,6 +882,7 @@ def required_cook(
             f"{missed.reason} (within the longest dwell {format_duration(max_dwell)})",
         )
     required, binding = found
+    required = max(required, 0.0)
     if rule.surface_max is not None:
         over = float(lethality.first_time_at(t, res.surface_max[0], rule.surface_max))
         if math.isfinite(over) and over < margin.apply(required):
@@ -884,7 +894,7 @@ def required_cook(
 
     # ---- final run ending exactly at the dwell (small bumps absorb the
     # difference between the long run's interpolation and a run that ends there)
-    dwell0 = margin.apply(required)
+    dwell0 = max(margin.apply(required), MIN_DWELL)
     cands = np.array([dwell0 * (1.0 + b) for b in _FINAL_BUMPS])
     if stage.has_ramp and cands[0] <= stage.ramp_duration:
         cands = cands[:1]
@@ -1154,7 +1164,7 @@ def required_chill(
         required = hi
 
     # ---- final run at the residence with margin (small bumps, as for cook)
-    tau0 = margin.apply(required)
+    tau0 = max(margin.apply(required), MIN_DWELL)
     cands = np.array([tau0 * (1.0 + b) for b in _FINAL_BUMPS])
     segs = _zone_segments(zsurfs, zones, cands)
     res = _run(product, zone_start, segs, cells, batch=cands.size, steps=steps, total=cands.max())
@@ -1165,7 +1175,7 @@ def required_chill(
         if transfer_hist is not None:
             hist = transfer_hist.then(hist)
         verdict = rule.check(hist.times, hist.core)
-        exit_ok = float(hist.core[-1]) <= target + 1e-9
+        exit_ok = float(hist.core[-1]) <= target + TOLERANCE_K
         if exit_ok:
             chosen = k
             break

@@ -37,6 +37,7 @@ from thermal._checks import as_float_array, nonnegative, positive, temperature_c
 from thermal.errors import ThermalInputError
 
 __all__ = [
+    "TOLERANCE_K",
     "ChillRule",
     "ClauseResult",
     "CookRule",
@@ -47,6 +48,10 @@ __all__ = [
     "Verdict",
     "format_duration",
 ]
+
+TOLERANCE_K = 1e-6
+"""A temperature within this of a limit counts as meeting it [K] (root-finding
+round-off; margins are still reported against the exact limit)."""
 
 
 def format_duration(seconds: float) -> str:
@@ -523,7 +528,7 @@ class CookRule:
     def clauses(self, t: NDArray[np.float64], y: NDArray[np.float64]) -> list[ClauseResult]:
         """Core clauses (every clause except ``surface_max``) on one history."""
         peak, at = _peak(t, y)
-        reached = float(lethality.first_time_at(t, y, self.core_target, "rising"))
+        reached = float(lethality.first_time_at(t, y, self.core_target - TOLERANCE_K, "rising"))
         if math.isfinite(reached):
             reason = (
                 f"core reached {self.core_target:.1f} °C after {format_duration(reached - t[0])}"
@@ -538,8 +543,10 @@ class CookRule:
                 ClauseResult("core_target", False, peak - self.core_target, "K", math.nan, reason)
             ]
         if self.hold > 0:
-            held = float(lethality.longest_hold_above(t, y, self.core_target))
-            when = float(lethality.hold_reached_time(t, y, self.core_target, self.hold))
+            held = float(lethality.longest_hold_above(t, y, self.core_target - TOLERANCE_K))
+            when = float(
+                lethality.hold_reached_time(t, y, self.core_target - TOLERANCE_K, self.hold)
+            )
             met = math.isfinite(when)
             if met:
                 reason = (
@@ -563,7 +570,7 @@ class CookRule:
     def _surface_clause(self, t, s) -> ClauseResult:
         assert self.surface_max is not None
         peak, _at = _peak(t, s)
-        met = peak <= self.surface_max
+        met = peak <= self.surface_max + TOLERANCE_K
         if met:
             reason = f"surface peaked at {peak:.1f} °C, limit {self.surface_max:.1f} °C"
         else:
@@ -623,8 +630,8 @@ class CoolingStep:
 
     def window(self, t: NDArray[np.float64], y: NDArray[np.float64]) -> tuple[float, float]:
         """Times the window opens and closes in one history [s] (NaN if never)."""
-        start = float(lethality.first_time_at(t, y, self.from_temp, "falling"))
-        end = float(lethality.first_time_at(t, y, self.to_temp, "falling"))
+        start = float(lethality.first_time_at(t, y, self.from_temp + TOLERANCE_K, "falling"))
+        end = float(lethality.first_time_at(t, y, self.to_temp + TOLERANCE_K, "falling"))
         return start, end
 
     def _clause(self, name: str, t, y) -> ClauseResult:
@@ -733,8 +740,8 @@ class ChillRule:
 def _exit_clause(name: str, limit: float | None, t, y) -> ClauseResult:
     assert limit is not None
     final = float(y[-1])
-    met = final <= limit
-    when = float(lethality.first_time_at(t, y, limit, "falling")) if met else math.nan
+    met = final <= limit + TOLERANCE_K
+    when = float(lethality.first_time_at(t, y, limit + TOLERANCE_K, "falling")) if met else math.nan
     if met:
         reason = f"core {final:.1f} °C at exit, limit {limit:.1f} °C"
     else:
