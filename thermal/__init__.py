@@ -3,3 +3,19 @@
 Pure functions and typed results in SI units (temperatures in °C). This
 package never imports :mod:`optimizer`.
 """
+
+from thermal.series import (
+    SHAPES,
+    eigenvalues,
+    fourier_for_ratio,
+    mean_temperature_ratio,
+    temperature_ratio,
+)
+
+__all__ = [
+    "SHAPES",
+    "eigenvalues",
+    "fourier_for_ratio",
+    "mean_temperature_ratio",
+    "temperature_ratio",
+]
