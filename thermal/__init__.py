@@ -4,6 +4,22 @@ Pure functions and typed results in SI units (temperatures in °C). This
 package never imports :mod:`optimizer`.
 """
 
+from thermal.geometry import (
+    LUMPED_BIOT_LIMIT,
+    Block,
+    FiniteCylinder,
+    InfiniteCylinder,
+    Shape,
+    Slab,
+    Sphere,
+    biot_numbers,
+    lumped_biot,
+    lumped_temperature_ratio,
+    lumped_time,
+    temperature_at,
+    temperature_ratio_at,
+    time_to_temperature,
+)
 from thermal.series import (
     SHAPES,
     eigenvalues,
@@ -13,9 +29,23 @@ from thermal.series import (
 )
 
 __all__ = [
+    "LUMPED_BIOT_LIMIT",
     "SHAPES",
+    "Block",
+    "FiniteCylinder",
+    "InfiniteCylinder",
+    "Shape",
+    "Slab",
+    "Sphere",
+    "biot_numbers",
     "eigenvalues",
     "fourier_for_ratio",
+    "lumped_biot",
+    "lumped_temperature_ratio",
+    "lumped_time",
     "mean_temperature_ratio",
+    "temperature_at",
     "temperature_ratio",
+    "temperature_ratio_at",
+    "time_to_temperature",
 ]
