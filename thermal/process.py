@@ -851,8 +851,11 @@ def required_cook(
     if int(steps) < 10:
         raise ThermalInputError(f"steps: must be >= 10, got {steps!r}")
     product = _scaled(product, scale)
-    cells = _cells(product, n_cells)
     initial = _check_initial(t_initial, "t_initial")
+    if isinstance(initial, numeric.Profile) and n_cells is None:
+        cells = tuple(initial.temperature.shape[1:])
+    else:
+        cells = _cells(product, n_cells)
     t_start = _mean_start(initial)
     fastest_lethality = _cook_reachability(rule, stage, t_start, max_dwell)
     pieces = _oven_surfaces(product, stage, t_start)
@@ -1280,8 +1283,11 @@ def run_stages(
         Histories of every stage in one run and the final profile.
     """
     product = _scaled(product, scale)
-    cells = _cells(product, n_cells)
     initial = _check_initial(t_initial, "t_initial")
+    if isinstance(initial, numeric.Profile) and n_cells is None:
+        cells = tuple(initial.temperature.shape[1:])
+    else:
+        cells = _cells(product, n_cells)
     t_start = _mean_start(initial)
     segs, names, surfaces = [], [], []
     total = 0.0
