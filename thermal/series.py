@@ -131,26 +131,37 @@ def _series_even(coef: NDArray[np.float64], z2: NDArray[np.float64]) -> NDArray[
     return out
 
 
-def _s1(z: NDArray[np.float64]) -> NDArray[np.float64]:
-    """(sin z - z cos z) / z³, accurate at small z."""
+def _small_safe(z, direct, coef):
+    """Evaluate ``direct`` where |z| >= 0.5 and the even Taylor series below."""
     z = np.asarray(z, dtype=float)
     small = np.abs(z) < 0.5
-    with np.errstate(divide="ignore", invalid="ignore"):
-        out = (np.sin(z) - z * np.cos(z)) / z**3
-    if small.any():
-        out = np.where(small, _series_even(_S1_COEF, z * z), out)
+    if not small.any():
+        return direct(z)
+    out = np.empty_like(z)
+    big = ~small
+    if big.any():
+        out[big] = direct(z[big])
+    zs = z[small]
+    out[small] = _series_even(coef, zs * zs)
     return out
+
+
+def _s1(z: NDArray[np.float64]) -> NDArray[np.float64]:
+    """(sin z - z cos z) / z³, accurate at small z."""
+    return _small_safe(z, lambda v: (np.sin(v) - v * np.cos(v)) / v**3, _S1_COEF)
 
 
 def _t2(z: NDArray[np.float64]) -> NDArray[np.float64]:
     """(2z - sin 2z) / z³, accurate at small z."""
+    return _small_safe(z, lambda v: (2 * v - np.sin(2 * v)) / v**3, _T2_COEF)
+
+
+def _sinc(z: NDArray[np.float64]) -> NDArray[np.float64]:
+    """sin z / z with the value 1 at 0."""
     z = np.asarray(z, dtype=float)
-    small = np.abs(z) < 0.5
     with np.errstate(divide="ignore", invalid="ignore"):
-        out = (2 * z - np.sin(2 * z)) / z**3
-    if small.any():
-        out = np.where(small, _series_even(_T2_COEF, z * z), out)
-    return out
+        out = np.sin(z) / z
+    return np.where(z == 0, 1.0, out)
 
 
 def _j1_over_x(z: NDArray[np.float64]) -> NDArray[np.float64]:
@@ -194,7 +205,10 @@ def _residual(shape: str, z, a, b):
         return a * z * j1 - b * j0, a * z * j0 + b * j1
     # sphere: 1 - ζ cot ζ = Bi, divided by ζ to remove the root at 0
     s1 = _s1(z)
-    return b * np.sinc(z / np.pi) - a * z * z * s1, -(b - a) * z * s1 - a * np.sin(z)
+    s = np.sin(z)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sinc = np.where(z == 0, 1.0, s / z)
+    return b * sinc - a * z * z * s1, -(b - a) * z * s1 - a * s
 
 
 def _brackets(shape: str, biot, n: NDArray[np.int64]):
@@ -323,12 +337,12 @@ def _mode(shape: str, z: NDArray[np.float64], position: NDArray[np.float64]):
         return np.cos(arg)
     if shape == "cylinder":
         return special.j0(arg)
-    return np.sinc(arg / np.pi)
+    return _sinc(arg)
 
 
 def _mean_factor(shape: str, z: NDArray[np.float64]) -> NDArray[np.float64]:
     if shape == "slab":
-        return np.sinc(z / np.pi)
+        return _sinc(z)
     if shape == "cylinder":
         return 2 * _j1_over_x(z)
     return 3 * _s1(z)
@@ -339,17 +353,20 @@ def _terms_needed(shape: str, fourier: NDArray[np.float64]) -> NDArray[np.int64]
 
     With ζ_n >= (n - 1) π and |C_n X_n| <= B for n >= 2, the tail after K
     terms is at most B Σ_{m>=K} exp(-π² m² Fo) <= B [exp(-c K²) +
-    √π erfc(√c K) / (2 √c)], c = π² Fo.
+    √π erfc(√c K) / (2 √c)], c = π² Fo. Looked up in the table of the
+    smallest Fo each K covers; ``MAX_SERIES_TERMS + 1`` means "more than the
+    series is used for".
     """
-    bound = _COEF_BOUND[shape]
-    c = np.pi**2 * np.maximum(fourier, 1e-300)
-    k = np.ceil(np.sqrt(np.log(bound / _TAIL_TOL) / c))
-    k = np.clip(k, 1, 10 * MAX_SERIES_TERMS)
-    for _ in range(4):
-        sc = np.sqrt(c)
-        tail = bound * (np.exp(-c * k * k) + np.sqrt(np.pi) * special.erfc(sc * k) / (2 * sc))
-        k = np.where(tail > _TAIL_TOL, k + 1, k)
-    return k.astype(np.int64)
+    floors = _floor_table(shape)  # decreasing in K = 1, 2, ...
+    pos = np.searchsorted(-floors, -np.asarray(fourier, dtype=float), side="left")
+    return (pos + 1).astype(np.int64)
+
+
+@lru_cache(maxsize=4)
+def _floor_table(shape: str) -> NDArray[np.float64]:
+    table = np.array([_fourier_floor(shape, k) for k in range(1, MAX_SERIES_TERMS + 1)])
+    table.setflags(write=False)
+    return table
 
 
 def _bucket(k: NDArray[np.int64]) -> NDArray[np.int64]:

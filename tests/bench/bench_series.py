@@ -1,0 +1,131 @@
+"""Benchmark: vectorised ``fourier_for_ratio`` against two baselines.
+
+Run with ``.venv/bin/python tests/bench/bench_series.py [cases]``; not part of
+the test suite, never fails on time. For each shape, ``cases`` random cases
+(default 100,000): Biot log-uniform over 1e-3 … 1e4 plus 2 % at Bi = inf,
+target ratio log-uniform over 1e-4 … 0.99, half at the centre and half at a
+uniform random position.
+
+Baselines, measured in the same run:
+
+(a) a per-case loop of ``scipy.optimize.brentq`` over the same series
+    (``thermal.series.temperature_ratio`` on one case at a time); timed on a
+    subsample and scaled to the full count (the output says so);
+(b) the closed-form one-term inverse ``Fo = ln(C1 X1 / θ) / ζ1²`` with ζ1 from
+    ``thermal.series.eigenvalues`` — the floor any exact method has to beat.
+
+Times are CPU seconds of this process (``time.process_time``, best of three
+for the vectorised runs) so that other work on the machine does not skew the
+ratios. Printed: times, the two ratios (speed-up over (a); slowdown against (b)), the
+largest relative difference from the brentq answers, and for information
+the error of the one-term formula.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+
+import numpy as np
+from scipy import special
+from scipy.optimize import brentq
+
+from thermal import series
+
+SUBSAMPLE = 1000
+
+
+def random_cases(shape: str, count: int, rng: np.random.Generator):
+    biot = 10 ** rng.uniform(-3, 4, count)
+    biot[rng.random(count) < 0.02] = np.inf
+    ratio = 10 ** rng.uniform(-4, np.log10(0.99), count)
+    position = np.where(rng.random(count) < 0.5, 0.0, rng.uniform(0, 1, count))
+    return biot, ratio, position
+
+
+def one_term(shape: str, biot, ratio, position):
+    """Closed-form one-term inverse (Incropera et al. eqs. 5.40, 5.52, 5.53)."""
+    z = series.eigenvalues(shape, biot, 1)[..., 0]
+    if shape == "slab":
+        c1 = 4 * np.sin(z) / (2 * z + np.sin(2 * z))
+        x1 = np.cos(z * position)
+    elif shape == "cylinder":
+        j0, j1 = special.j0(z), special.j1(z)
+        c1 = 2 / z * j1 / (j0**2 + j1**2)
+        x1 = special.j0(z * position)
+    else:
+        c1 = 4 * (np.sin(z) - z * np.cos(z)) / (2 * z - np.sin(2 * z))
+        x1 = np.sinc(z * position / np.pi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.log(c1 * x1 / ratio) / z**2
+
+
+def brentq_loop(shape: str, biot, ratio, position):
+    out = np.empty(biot.size)
+    for i in range(biot.size):
+        b, r, x = float(biot[i]), float(ratio[i]), float(position[i])
+        if np.isinf(b) and x == 1.0:
+            out[i] = 0.0
+            continue
+
+        def gap(fo, b=b, r=r, x=x):
+            return float(series.temperature_ratio(shape, b, fo, x)) - r
+
+        hi = 1.0
+        while gap(hi) > 0:
+            hi *= 4.0
+        lo = hi / 4.0
+        while gap(lo) < 0 and lo > 1e-300:
+            lo /= 4.0
+        out[i] = brentq(gap, lo, hi, xtol=1e-300, rtol=4e-15, maxiter=400)
+    return out
+
+
+def best_of(repeats: int, fun, *args):
+    best, value = np.inf, None
+    for _ in range(repeats):
+        start = time.process_time()
+        value = fun(*args)
+        best = min(best, time.process_time() - start)
+    return best, value
+
+
+def main(count: int) -> None:
+    rng = np.random.default_rng(20260101)
+    print(f"fourier_for_ratio on {count:,} random cases per shape")
+    print(f"(a) per-case brentq timed on {SUBSAMPLE:,} of them and scaled to {count:,}")
+    print("times: CPU seconds of this process (time.process_time)")
+    total = {"vector": 0.0, "brentq": 0.0, "floor": 0.0}
+    worst_all = 0.0
+    for shape in series.SHAPES:
+        biot, ratio, position = random_cases(shape, count, rng)
+        series.fourier_for_ratio(shape, biot[:100], ratio[:100], position[:100])  # warm caches
+        t_vec, fo = best_of(3, series.fourier_for_ratio, shape, biot, ratio, position)
+        t_floor, fo1 = best_of(3, one_term, shape, biot, ratio, position)
+        sub = slice(0, min(SUBSAMPLE, count))
+        t_sub, ref = best_of(1, brentq_loop, shape, biot[sub], ratio[sub], position[sub])
+        t_brentq = t_sub * count / (sub.stop - sub.start)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            rel = np.abs(fo[sub] - ref) / np.maximum(ref, 1e-300)
+            one_err = np.abs(fo1 - fo) / fo
+        worst = float(np.max(rel))
+        worst_all = max(worst_all, worst)
+        valid = np.isfinite(one_err) & (fo > 0.2)
+        print(
+            f"{shape:9s} vectorised {t_vec:7.3f} s | brentq loop {t_brentq:8.1f} s (scaled) "
+            f"-> {t_brentq / t_vec:7.0f}x faster | one-term {t_floor:6.3f} s "
+            f"-> {t_vec / t_floor:5.2f}x slower | max rel. diff vs brentq {worst:.1e} | "
+            f"one-term error at Fo > 0.2 up to {np.max(one_err[valid]):.1e}"
+        )
+        total["vector"] += t_vec
+        total["brentq"] += t_brentq
+        total["floor"] += t_floor
+    print(
+        f"all shapes: {total['brentq'] / total['vector']:.0f}x faster than per-case brentq "
+        f"(target >= 100x); {total['vector'] / total['floor']:.2f}x the one-term floor "
+        f"(target <= 10x); max relative difference vs brentq {worst_all:.1e}"
+    )
+
+
+if __name__ == "__main__":
+    main(int(sys.argv[1]) if len(sys.argv) > 1 else 100_000)
