@@ -311,7 +311,7 @@ def test_constant_properties_with_freezing_release_latent_heat() -> None:
 # --------------------------------------------------------------------------- property tests
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=60, deadline=None)
 @given(
     composition=compositions(),
     t=st.lists(st.floats(-60.0, 170.0), min_size=2, max_size=20),
@@ -325,18 +325,21 @@ def test_enthalpy_monotone_and_inverse_round_trip(composition: Composition, t: l
     np.testing.assert_allclose(food.temperature_from_enthalpy(h), temps, atol=1e-4)
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=60, deadline=None)
 @given(
     composition=compositions(),
     h=st.lists(st.floats(-1e5, 8e5), min_size=1, max_size=20),
 )
 def test_temperature_from_enthalpy_is_an_inverse(composition: Composition, h: list) -> None:
+    # Judge the inverse in temperature: the enthalpy gap divided by the
+    # (smaller) sensible cp bounds the temperature error; accept 1e-4 K.
     food = FoodProperties(composition)
     temps = food.temperature_from_enthalpy(np.array(h))
-    np.testing.assert_allclose(food.enthalpy(temps), h, rtol=1e-6, atol=1e-2)
+    gap = np.abs(food.enthalpy(temps) - np.array(h))
+    assert np.all(gap <= 1e-4 * food.sensible_specific_heat(temps))
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=60, deadline=None)
 @given(composition=compositions(), t=st.floats(-40.0, 150.0))
 def test_conductivity_models_ordered(composition: Composition, t: float) -> None:
     # Wiener bounds: parallel >= any mixture >= series; Maxwell–Eucken lies

@@ -639,8 +639,6 @@ class FoodProperties:
         else:
             t_f = float(in_range("freezing_point", freezing_point, -100.0, -MIN_DEPRESSION))
         self._freezing_point = t_f
-        self._latent_heat = LATENT_HEAT_ICE * water if (t_f is not None and freezable > 0) else 0.0
-
         a = x @ _SPECIFIC_HEAT
         d = _SPECIFIC_HEAT[_ICE] - _SPECIFIC_HEAT[_WATER]
         self._model = _Enthalpy(
@@ -649,6 +647,8 @@ class FoodProperties:
             freezable=freezable if t_f is not None else 0.0,
             t_f=t_f if t_f is not None else float("-inf"),
         )
+        # ASHRAE table convention L0 x_w, when ice forms within -40..150 °C
+        self._latent_heat = LATENT_HEAT_ICE * water if self._model.freezable > 0.0 else 0.0
         # k and rho are the costly ones (seven components, volume fractions):
         # tabulate once on the enthalpy grid, which has a node at the freezing
         # point where both have a kink; np.interp holds the end values outside

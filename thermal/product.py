@@ -27,6 +27,7 @@ from thermal import convection, geometry
 from thermal._checks import as_float_array, in_range, nonnegative, temperature_c
 from thermal.errors import ThermalInputError, UnreachableTargetError
 from thermal.foods import Composition, FoodProperties, ThermalProperties
+from thermal.geometry import Shape
 
 LUMPED_BIOT_LIMIT = 0.1
 """Biot number on V/A below which lumped capacitance is accurate [-] (Incropera, ch. 5)."""
@@ -182,7 +183,7 @@ class Product:
     def __init__(
         self,
         name: str,
-        geometry: object,
+        geometry: Shape,
         properties: Composition | ThermalProperties,
         emissivity: float = 0.9,
     ) -> None:
@@ -292,7 +293,7 @@ class Product:
         approximated by the mean of ``t_initial`` and the series surface
         temperature (centre of the largest face) at the moment the core
         reaches the target; it is found by fixed-point iteration on h
-        (converged to 1e-4 relative, usually in 3-6 steps), starting from the
+        (converged to 1e-4 relative, usually in 2-4 steps), starting from the
         mean of ``t_initial`` and the air temperature.
 
         Parameters
