@@ -168,7 +168,9 @@ BTU_PER_LB = 2326.0  # J/kg per Btu/lb
 
 # Cod, Atlantic, raw: composition (from memory, USDA values as reproduced in
 # the ASHRAE table): water 81.22 %, protein 17.81 %, fat 0.67 %, ash 1.16 %,
-# no carbohydrate. USDA proximates sum to 100.86 %; normalised here.
+# no carbohydrate (secondary public copies of the USDA entry confirm about
+# 18 g protein and under 1 g fat per 100 g). USDA proximates sum to 100.86 %;
+# normalised here.
 COD = Composition.from_percent(81.22 / 1.0086, 17.81 / 1.0086, 0.67 / 1.0086, 0, 0, 1.16 / 1.0086)
 COD_FREEZING_POINT = (28.0 - 32.0) / 1.8  # -2.2 °C, table value
 # Beef round, lean: water 71.04 % derived from the table's latent heat
