@@ -107,16 +107,16 @@ __all__ = [
 DEFAULT_CELLS = {1: 24, 2: 14, 3: 10}
 """Cells per direction, centre to surface, by number of directions."""
 
-DEFAULT_STEPS = 60
+DEFAULT_STEPS = 40
 """Time steps over a whole run (split over segments by duration, at least 3 each)."""
 
 MIN_DWELL = 1.0
 """Shortest dwell or residence reported [s] (a rule met at loading still gets 1 s)."""
 
 _SEARCH_STEPS = 30
-_FINE_POINTS = 20
+_COARSE_POINTS = 16
 _SERIES_SAMPLES = 241
-_FINAL_BUMPS = (0.0, 2e-4, 1e-3, 5e-3)
+_FINAL_BUMPS = (0.0, 1e-3, 5e-3)
 
 
 class InfeasibleRuleError(UnreachableTargetError):
@@ -895,33 +895,31 @@ def required_cook(
                 f"before the core rule is met at {format_duration(margin.apply(required))}",
             )
 
-    # ---- final run ending exactly at the dwell (small bumps absorb the
-    # difference between the long run's interpolation and a run that ends there)
+    # ---- final run ending exactly at the dwell (a small bump, if needed,
+    # absorbs the difference between the long run's interpolation and a run
+    # that ends there)
     dwell0 = max(margin.apply(required), MIN_DWELL)
-    cands = np.array([dwell0 * (1.0 + b) for b in _FINAL_BUMPS])
-    if stage.has_ramp and cands[0] <= stage.ramp_duration:
-        cands = cands[:1]
-    segs = _oven_segments(pieces, cands if cands.size > 1 else float(cands[0]))
-    res = _run(product, initial, segs, cells, batch=cands.size, steps=steps, total=cands.max())
-    names = [f"oven {i + 1}" for i in range(len(segs))]
-    surfaces = [p[1] for p in pieces[: len(segs)]]  # segment i comes from piece i
-    for k in range(cands.size):
-        hist = _member_history(res, k, names, surfaces)
+    for bump in _FINAL_BUMPS:
+        dwell = dwell0 * (1.0 + bump)
+        segs = _oven_segments(pieces, dwell)
+        res = _run(product, initial, segs, cells, batch=1, steps=steps, total=dwell)
+        names = [f"oven {i + 1}" for i in range(len(segs))]
+        surfaces = [p[1] for p in pieces[: len(segs)]]  # segment i comes from piece i
+        hist = _member_history(res, 0, names, surfaces)
         verdict = rule.check(hist.times, hist.core, hist.surface_max)
         if verdict.met:
             break
     else:
         raise InfeasibleRuleError(verdict.binding, verdict.reason)
     hist = _merge_spans(hist, "oven", 0, len(hist.stages) - 1, main.t_air, main.h)
-    profile = numeric.Profile(res.final[k : k + 1].copy(), res.density[k : k + 1].copy())
     return CookResult(
-        float(cands[k]),
+        dwell,
         required,
         binding,
         verdict,
         hist,
-        float(res.heat_in[k]),
-        profile,
+        float(res.heat_in[0]),
+        res.final_state(),
         "numeric",
         main.h,
     )
@@ -1035,8 +1033,8 @@ def required_chill(
     steps : int
         Solver time steps over a run at the final accuracy.
     tolerance : float
-        Relative width to which the residence is bracketed before the final
-        linear interpolation inside the bracket [-].
+        Relative bracket width at which the search stops [-]; it also stops
+        when the core at exit is within 0.01 K of the target.
 
     Returns
     -------
@@ -1125,8 +1123,8 @@ def required_chill(
         )
         return res.core[:, -1]
 
-    # ---- bracket the exit target on batched runs: one coarse geometric scan,
-    # then linear scans at full accuracy; interpolate in the last bracket
+    # ---- bracket the exit target: one coarse batched scan, then regula falsi
+    # (Illinois) on single runs at full accuracy inside the bracket
     def unreachable(core_exit: float) -> InfeasibleRuleError:
         clause = "core_target" if isinstance(rule, FreezeRule) else _exit_clause_name(rule)
         return InfeasibleRuleError(
@@ -1135,68 +1133,73 @@ def required_chill(
             f"{format_duration(max_residence)} (target {target:.1f} °C)",
         )
 
-    grid = np.geomspace(min(30.0, max_residence / 100.0), max_residence, 12)
+    grid = np.geomspace(min(MIN_DWELL, max_residence / 1e3), max_residence, _COARSE_POINTS)
     g = exit_core(grid, _SEARCH_STEPS) - target
-    if g[-1] > 0:
-        g_max = float(exit_core(np.array([max_residence]), steps)[0] - target)
-        if g_max > 0:
-            raise unreachable(g_max + target)
-        g[-1] = g_max
-    k = int(np.argmax(g <= 0))
-    lo = float(grid[k - 2]) if k >= 2 else 0.0  # the coarse scan may be off by a step
-    hi = float(grid[min(k + 1, grid.size - 1)])
-    g_lo = math.nan
-    g_hi = math.nan
-    for _ in range(8):
-        grid = np.linspace(lo, hi, _FINE_POINTS + 1)[1:]
-        g = exit_core(grid, steps) - target
-        if not (g <= 0).any():
-            if hi >= max_residence:
-                raise unreachable(float(g[-1] + target))
-            lo, hi, g_lo = hi, min(2.0 * hi, max_residence), float(g[-1])
+    k = int(np.argmax(g <= 0)) if (g <= 0).any() else grid.size - 1
+    # full-accuracy values at the bracket ends; widen where the coarse scan misjudged
+    for _ in range(2 * grid.size):
+        a = float(grid[k - 1]) if k > 0 else 0.0
+        b = float(grid[k])
+        ends = np.array([a, b]) if a > 0 else np.array([b])
+        vals = exit_core(ends, steps) - target
+        fb = float(vals[-1])
+        fa = float(vals[0]) if a > 0 else math.inf
+        if fb > 0:
+            if k == grid.size - 1:
+                raise unreachable(fb + target)
+            k += 1
             continue
-        k = int(np.argmax(g <= 0))
-        hi, g_hi = float(grid[k]), float(g[k])
-        if k > 0:
-            lo, g_lo = float(grid[k - 1]), float(g[k - 1])
-        if (hi - lo) <= tolerance * hi or hi < 1.0:
+        if fa <= 0 and k > 0:
+            k -= 1
+            continue
+        break
+    side = 0
+    for _ in range(40):
+        if a <= 0 or (b - a) <= tolerance * b or b < MIN_DWELL:
             break
-    if lo > 0 and math.isfinite(g_lo) and g_lo > 0 >= g_hi:
-        required = lo + (hi - lo) * g_lo / (g_lo - g_hi)
-    else:
-        required = hi
+        c = b - fb * (b - a) / (fb - fa)
+        c = min(max(c, a + 0.01 * (b - a)), b - 0.01 * (b - a))
+        fc = float(exit_core(np.array([c]), steps)[0] - target)
+        if abs(fc) < 1e-2:  # within 0.01 K: the final run's bump covers the rest
+            b, fb = c, fc
+            break
+        if fc <= 0:
+            b, fb = c, fc
+            if side == -1:
+                fa *= 0.5
+            side = -1
+        else:
+            a, fa = c, fc
+            if side == 1:
+                fb *= 0.5
+            side = 1
+    required = b
 
-    # ---- final run at the residence with margin (small bumps, as for cook)
+    # ---- final run at the residence with margin (a small bump, as for cook)
     tau0 = max(margin.apply(required), MIN_DWELL)
-    cands = np.array([tau0 * (1.0 + b) for b in _FINAL_BUMPS])
-    segs = _zone_segments(zsurfs, zones, cands)
-    res = _run(product, zone_start, segs, cells, batch=cands.size, steps=steps, total=cands.max())
     names = [f"zone {i + 1}" for i in range(len(zones))]
-    chosen = None
-    for k in range(cands.size):
-        hist = _member_history(res, k, names, zsurfs)
+    for bump in _FINAL_BUMPS:
+        tau = tau0 * (1.0 + bump)
+        segs = _zone_segments(zsurfs, zones, tau)
+        res = _run(product, zone_start, segs, cells, batch=1, steps=steps, total=tau)
+        hist = _member_history(res, 0, names, zsurfs)
         if transfer_hist is not None:
             hist = transfer_hist.then(hist)
         verdict = rule.check(hist.times, hist.core)
-        exit_ok = float(hist.core[-1]) <= target + TOLERANCE_K
-        if exit_ok:
-            chosen = k
+        if float(hist.core[-1]) <= target + TOLERANCE_K:
             break
-    if chosen is None:
+    else:
         raise InfeasibleRuleError(verdict.binding, verdict.reason)
     if not verdict.met:
         raise InfeasibleRuleError(
             verdict.binding,
             f"{verdict.reason}, at the shortest residence that meets the exit limit "
-            f"({format_duration(float(cands[chosen]))}); zones that do not get warmer along "
-            "the tunnel only cool more slowly at longer residences",
+            f"({format_duration(tau)}); zones that do not get warmer along the tunnel only "
+            "cool more slowly at longer residences",
         )
-    zone_heat = -float(res.heat_in[chosen])
+    zone_heat = -float(res.heat_in[0])
     binding = "core_target" if isinstance(rule, FreezeRule) else _exit_clause_name(rule)
-    profile = numeric.Profile(
-        res.final[chosen : chosen + 1].copy(), res.density[chosen : chosen + 1].copy()
-    )
-    tau = float(cands[chosen])
+    profile = res.final_state()
     return ChillResult(
         tau,
         required,
