@@ -74,8 +74,8 @@ def mol_2d(curved: bool, biot: float, aspect: float, cells: int, fo: np.ndarray)
         method="BDF",
         jac=mat,
         t_eval=fo,
-        rtol=1e-10,
-        atol=1e-12,
+        rtol=1e-8,
+        atol=1e-10,
     )
     assert sol.success
     return sol.y.T.reshape(len(fo), nz, nr)
@@ -97,13 +97,13 @@ def sample(theta: np.ndarray) -> dict[str, np.ndarray]:
 @pytest.mark.parametrize("curved", [True, False])
 def test_product_solution_matches_2d_method_of_lines(curved):
     # Independent check of the product solution (Incropera et al. §5.8):
-    # 2-D finite volumes + solve_ivp (BDF), Richardson over 20/40 cells a side.
+    # 2-D finite volumes + solve_ivp (BDF), Richardson over 16/32 cells a side.
     radius, half_length, h = 0.04, 0.03, 22.5  # Bi = h R / k = 2
     biot = h * radius / K
     aspect = half_length / radius
     fo = np.array([0.05, 0.15, 0.4])
-    coarse = sample(mol_2d(curved, biot, aspect, 20, fo))
-    fine = sample(mol_2d(curved, biot, aspect, 40, fo))
+    coarse = sample(mol_2d(curved, biot, aspect, 16, fo))
+    fine = sample(mol_2d(curved, biot, aspect, 32, fo))
     if curved:
         shape = FiniteCylinder(radius, 2 * half_length)
     else:
@@ -259,7 +259,7 @@ def test_time_to_temperature_inverts_temperature_at(shape, heating):
         assert (sooner < target) if heating else (sooner > target)
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=20, deadline=None)
 @given(
     radius=st.floats(0.005, 0.2),
     aspect=st.floats(0.2, 5.0),

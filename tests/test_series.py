@@ -47,8 +47,8 @@ def mol_solution(shape: str, biot: float, fo: np.ndarray, cells: int):
         method="BDF",
         jac=mat,
         t_eval=fo,
-        rtol=1e-10,
-        atol=1e-12,
+        rtol=1e-8,
+        atol=1e-10,
     )
     assert sol.success
     return sol.y.T  # (len(fo), cells)
@@ -79,10 +79,10 @@ def mol_points(shape: str, biot: float, theta: np.ndarray, cells: int) -> dict[f
 )
 def test_series_matches_method_of_lines(shape, biot):
     # Independent check: second-order finite volumes in space, stiff BDF in time
-    # (scipy.integrate.solve_ivp), Richardson extrapolation over 100/200 cells.
+    # (scipy.integrate.solve_ivp), Richardson extrapolation over 60/120 cells.
     fo = np.array([0.05, 0.2, 0.6, 1.5])
-    coarse = mol_points(shape, biot, mol_solution(shape, biot, fo, 100), 100)
-    fine = mol_points(shape, biot, mol_solution(shape, biot, fo, 200), 200)
+    coarse = mol_points(shape, biot, mol_solution(shape, biot, fo, 60), 60)
+    fine = mol_points(shape, biot, mol_solution(shape, biot, fo, 120), 120)
     for x, value in fine.items():
         if x == 1.0 and np.isinf(biot):
             continue  # surface fixed at 0 in both
@@ -231,9 +231,9 @@ def test_fourier_for_ratio_special_values():
 def test_fourier_for_ratio_against_per_case_brentq():
     rng = np.random.default_rng(7)
     for shape in SHAPES:
-        bi = 10 ** rng.uniform(-2, 3, 12)
-        ratio = rng.uniform(0.02, 0.98, 12)
-        x = rng.choice([0.0, 0.5, 0.95], 12)
+        bi = 10 ** rng.uniform(-2, 3, 8)
+        ratio = rng.uniform(0.02, 0.98, 8)
+        x = rng.choice([0.0, 0.5, 0.95], 8)
         got = series.fourier_for_ratio(shape, bi, ratio, x)
         for b, r, p, fo in zip(bi, ratio, x, got, strict=True):
 
