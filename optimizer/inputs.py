@@ -124,7 +124,9 @@ class OvenData:
     load_unload_min : float
         Minutes to load plus unload one batch [min].
     changeover_min : float
-        Minutes to change from one air setting to another [min].
+        Minutes to change from one air setting to another [min]. The first
+        setting of a shift is free: it is set in the time already taken off
+        the shift.
     """
 
     name: str
@@ -190,7 +192,9 @@ class TunnelData:
         Belt loading options (dwell table ``loading``).
     changeover_min : float
         Minutes lost when the tunnel switches to another run, a run being
-        one product at one tunnel setting and one loading [min].
+        one product at one tunnel setting (changing the loading inside a run
+        is free) [min]. The first run of a shift is free: the tunnel is set
+        up in the time already taken off the shift.
     """
 
     name: str

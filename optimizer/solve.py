@@ -19,6 +19,7 @@ import time
 import warnings
 from collections import defaultdict
 
+import highspy
 import pulp
 
 from optimizer.inputs import Objective, PlanInputs, SolveOptions
@@ -44,34 +45,72 @@ LOADS_PER_ROUND = 4
 """Most mixed loads added per (oven, setting) and round [-]."""
 
 
-def _solver(name: str, options: SolveOptions, *, mip: bool = True):
+class _HighsWithStart(pulp.HiGHS):
+    """In-process HiGHS that hands the current variable values over as a start."""
+
+    def __init__(self, *args, start: bool = False, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.start = start
+
+    def callSolver(self, lp):  # PuLP hook name
+        if self.start:
+            values = [0.0] * lp.solverModel.getNumCol()
+            for v in lp.variables():
+                values[v.index] = float(v.varValue or 0.0)
+            sol = highspy.HighsSolution()
+            sol.col_value = values
+            sol.value_valid = True
+            lp.solverModel.setSolution(sol)
+        lp.solverModel.run()
+
+
+def _solver(
+    name: str,
+    options: SolveOptions,
+    *,
+    mip: bool = True,
+    time_limit: float | None = None,
+    start: bool = False,
+):
+    limit = options.time_limit_s if time_limit is None else time_limit
     if name == "highs":
-        return pulp.HiGHS(
+        return _HighsWithStart(
             mip=mip,
             msg=options.msg,
-            timeLimit=options.time_limit_s,
+            timeLimit=limit,
             gapRel=options.gap_rel,
             threads=options.threads,
             random_seed=0,
+            start=start,
         )
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DeprecationWarning)
         return pulp.PULP_CBC_CMD(
             mip=mip,
             msg=options.msg,
-            timeLimit=options.time_limit_s,
+            timeLimit=limit,
             gapRel=options.gap_rel,
             threads=1,
+            warmStart=start,
         )
 
 
-def _run(prob: pulp.LpProblem, name: str, options: SolveOptions, *, mip: bool = True):
+def _run(
+    prob: pulp.LpProblem,
+    name: str,
+    options: SolveOptions,
+    *,
+    mip: bool = True,
+    time_limit: float | None = None,
+    start: bool = False,
+):
     """Solve ``prob``; return (status, gap, bound (min form), seconds, message)."""
     t0 = time.perf_counter()
+    limit = options.time_limit_s if time_limit is None else time_limit
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", DeprecationWarning)
-            prob.solve(_solver(name, options, mip=mip))
+            prob.solve(_solver(name, options, mip=mip, time_limit=limit, start=start))
     except Exception as exc:  # solver crash: report, let the caller fall back
         return SolveStatus.ERROR, None, None, time.perf_counter() - t0, f"{name}: {exc}"
     dt = time.perf_counter() - t0
@@ -85,7 +124,7 @@ def _run(prob: pulp.LpProblem, name: str, options: SolveOptions, *, mip: bool = 
         status = SolveStatus.INFEASIBLE
     elif st == pulp.LpStatusUnbounded:
         status = SolveStatus.UNBOUNDED
-    elif dt >= 0.9 * options.time_limit_s:
+    elif dt >= 0.9 * limit:
         status = SolveStatus.NO_SOLUTION_IN_TIME
     else:
         status = SolveStatus.ERROR
@@ -317,6 +356,33 @@ def _diagnose(
     return tuple(s for _, s in items), ""
 
 
+SINGLES_STAGE_SHARE = 0.3
+"""Share of the time limit the singles-only first stage may use [-]."""
+
+
+def _staged_solve(model: PlanModel, solver: str, options: SolveOptions):
+    """Solve with single-product loads first, then all loads from that start.
+
+    Mixed loads add many near-equal alternatives; the singles-only plan is
+    found fast and hands the full MILP a good incumbent.
+    """
+    mixed_n = [v for (lk, _s), v in model.n.items() if model.loads[lk].is_mixed]
+    if not mixed_n:
+        return _run(model.prob, solver, options)
+    saved = [(v, v.upBound) for v in mixed_n]
+    for v in mixed_n:
+        v.upBound = 0
+    limit1 = SINGLES_STAGE_SHARE * options.time_limit_s
+    st1, _g, _b, dt1, _m = _run(model.prob, solver, options, time_limit=limit1)
+    for v, ub in saved:
+        v.upBound = ub
+    rest = max(options.time_limit_s - dt1, 0.1 * options.time_limit_s)
+    status, gap, bound, dt2, msg = _run(
+        model.prob, solver, options, time_limit=rest, start=st1.has_plan
+    )
+    return status, gap, bound, dt1 + dt2, msg
+
+
 def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
     """Plan the shifts: the MILP from the dwell table, solved, with diagnostics.
 
@@ -356,7 +422,7 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
         solve_s += time.perf_counter() - tc
     mixed = [ld for ld in model.loads.values() if ld.is_mixed]
 
-    status, gap, bound, dt, msg = _run(model.prob, first, options)
+    status, gap, bound, dt, msg = _staged_solve(model, first, options)
     solve_s += dt
     used = first
     if status in (SolveStatus.ERROR, SolveStatus.UNBOUNDED) and options.fallback:

@@ -80,11 +80,13 @@ def one_line(
     objective: Objective = Objective.MOST_KG,
     fixed_output_kg: float | None = None,
     extra_rows: list[dict] | None = None,
+    extra_products: tuple[str, ...] = (),
 ) -> PlanInputs:
     """One oven (settings 'hot', 'mild'), one tunnel (setting 'cold', loading 'full').
 
     ``products`` maps name -> (kg_per_tray, cook_min at 'hot', belt speed
-    m/min, kwargs for ProductData); belt density 10 kg/m2.
+    m/min, kwargs for ProductData); belt density 10 kg/m2. ``extra_products``
+    are 10 kg/tray products whose dwell rows come only from ``extra_rows``.
     """
     products = products or {"A": (10.0, 50.0, 1.0, {})}
     oven = OvenData("oven-1", trays, capacity_kg, ("hot", "mild"), load_unload, oven_changeover)
@@ -100,7 +102,7 @@ def one_line(
     )
     prods = tuple(
         ProductData(name, kgpt, 10.0, **kw) for name, (kgpt, _c, _v, kw) in products.items()
-    )
+    ) + tuple(ProductData(name, 10.0, 10.0) for name in extra_products)
     rows = [
         dwell_row(name, "oven-1", "hot", "tunnel-1", "cold", "full", cook, v)
         for name, (_k, cook, v, _kw) in products.items()

@@ -1,0 +1,228 @@
+"""plan(): statuses, shortfall diagnosis, shadow prices, determinism, tables.
+
+Plants are invented (tests._planner_cases); expected values are worked out
+by hand in the comments.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from optimizer.inputs import Objective, OrderData, PlanInputs, SolveOptions
+from optimizer.results import (
+    CAUTION,
+    SolveStatus,
+    bottleneck,
+    oven_table,
+    plan_tables,
+    summary_text,
+    totals_table,
+    tunnel_table,
+    utilisation_table,
+)
+from optimizer.solve import plan
+from tests._planner_cases import dwell_row, one_line
+
+SOLVERS = ["highs", "cbc"]
+
+
+@pytest.mark.parametrize("solver", SOLVERS)
+def test_shadow_price_of_the_oven(solver):
+    # Oven-bound: one more oven hour = one more 60-min batch of 100 kg -> +100 kg/h.
+    r = plan(one_line(), SolveOptions(solver=solver))
+    price = {s.machine: s.per_hour for s in r.shadow_prices}
+    assert price["oven-1"] == pytest.approx(100.0, rel=1e-4)
+    assert price["tunnel-1"] == pytest.approx(0.0, abs=1e-6)
+    bn = bottleneck(r)
+    assert (bn.machine, bn.reason) == ("oven-1", "highest shadow price")
+
+
+@pytest.mark.parametrize("solver", SOLVERS)
+def test_shadow_price_of_the_tunnel(solver):
+    # Tunnel-bound at 1 kg/min -> one more belt hour = +60 kg.
+    r = plan(one_line(products={"A": (10.0, 50.0, 0.1, {})}), SolveOptions(solver=solver))
+    price = {s.machine: s.per_hour for s in r.shadow_prices}
+    assert price["tunnel-1"] == pytest.approx(60.0, rel=1e-4)
+    assert price["oven-1"] == pytest.approx(0.0, abs=1e-6)
+    assert bottleneck(r).machine == "tunnel-1"
+
+
+def test_shortfall_names_the_order():
+    # 800 kg fit in s1; an order of 900 kg due s1 is 100 kg short
+    # (100/900 = 11 % beats 60 more oven minutes = 12.5 % of the shift).
+    inp = one_line(orders=[OrderData("A", min_kg=900.0, due_shift="s1")], n_shifts=2)
+    r = plan(inp)
+    assert r.status is SolveStatus.INFEASIBLE
+    assert len(r.shortfalls) == 1
+    s = r.shortfalls[0]
+    assert (s.kind, s.subject, s.shift) == ("order", "A", "s1")
+    assert s.amount == pytest.approx(100.0, rel=1e-6)
+    assert s.message == "order for A: 100 kg short by s1"
+    assert "100 kg short by s1" in summary_text(r)
+
+
+def test_shortfall_names_the_machine_minutes():
+    # A only at 'hot', B only at 'mild', 60-min changeover, mins A 100, B 700: one A
+    # batch + 7 B batches + changeover = 540 min > 480. Cheapest relaxation: 60 more
+    # oven minutes (12.5 %) rather than 100 kg of B (14 %) or of A (100 %).
+    rows = [dwell_row("B", "oven-1", "mild", "tunnel-1", "cold", "full", 50.0, 1.0)]
+    inp = one_line(
+        oven_changeover=60.0,
+        orders=[OrderData("A", min_kg=100.0), OrderData("B", min_kg=700.0)],
+        extra_rows=rows,
+        extra_products=("B",),
+    )
+    r = plan(inp)
+    assert r.status is SolveStatus.INFEASIBLE
+    (s,) = r.shortfalls
+    assert (s.kind, s.subject, s.shift, s.unit) == ("machine", "oven-1", "s1", "min")
+    assert s.amount == pytest.approx(60.0, rel=1e-6)
+    assert s.message == "oven-1 needs 60 more minutes in s1"
+
+
+def test_shortfall_for_a_product_the_plant_cannot_make():
+    bad = dwell_row(
+        "B",
+        "oven-1",
+        "hot",
+        "tunnel-1",
+        "cold",
+        "full",
+        0,
+        0,
+        feasible=False,
+        reason="core does not reach 72 °C at this setting",
+    )
+    inp = one_line(
+        orders=[OrderData("A"), OrderData("B", min_kg=50.0)],
+        extra_rows=[bad],
+        extra_products=("B",),
+    )
+    r = plan(inp)
+    assert r.status is SolveStatus.INFEASIBLE
+    (s,) = r.shortfalls
+    assert s.amount == pytest.approx(50.0)
+    assert "cannot be made on this plant: core does not reach 72 °C" in s.message
+    assert "Cannot make B" in summary_text(r)
+
+
+def test_infeasible_without_diagnosis_has_no_shortfalls():
+    inp = one_line(orders=[OrderData("A", min_kg=900.0)])
+    r = plan(inp, SolveOptions(diagnose=False))
+    assert r.status is SolveStatus.INFEASIBLE and r.shortfalls == ()
+
+
+def _plan_signature(r):
+    return (
+        r.objective_value,
+        [(b.oven, b.shift, b.load, b.batches, tuple(c.kg for c in b.contents)) for b in r.batches],
+        [(x.tunnel, x.shift, x.product, x.oven_setting, x.loading, x.kg) for x in r.runs],
+    )
+
+
+@pytest.mark.parametrize("solver", SOLVERS)
+def test_same_input_same_plan(solver):
+    # Many equal-value plans exist (A and B identical): the chosen one must repeat.
+    prods = {"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 50.0, 1.0, {}), "C": (8.0, 55.0, 0.5, {})}
+    orders = [OrderData("A", max_kg=900.0), OrderData("B", min_kg=200.0), OrderData("C")]
+    inp = one_line(products=prods, orders=orders, n_shifts=3, oven_changeover=20.0)
+    opts = SolveOptions(solver=solver)
+    assert _plan_signature(plan(inp, opts)) == _plan_signature(plan(inp, opts))
+
+
+def test_tables_and_summary():
+    inp = one_line(n_shifts=2)
+    r = plan(inp)
+    ov = oven_table(r)
+    assert list(ov["batches"]) == [8, 8]
+    assert ov["minutes"].sum() == pytest.approx(960.0)
+    tu = tunnel_table(r)
+    assert set(tu.columns) >= {"belt_speed_m_per_min", "kg", "loading", "tunnel_setting"}
+    assert tu["kg"].sum() == pytest.approx(1600.0)
+    tot = totals_table(r)
+    assert tot.loc["A", "total"] == pytest.approx(1600.0)
+    ut = utilisation_table(r)
+    oven_u = ut[ut["machine"] == "oven-1"]["utilisation"]
+    assert list(oven_u) == pytest.approx([1.0, 1.0])
+    assert set(plan_tables(r)) >= {"ovens", "tunnels", "totals", "utilisation", "slack"}
+    text = summary_text(r)
+    assert "1,600.0 kg" in text and CAUTION in text
+    slack = {s.group: s for s in r.slacks}
+    assert slack["oven_time"].binding == 2
+
+
+def test_plan_exposes_what_the_thermal_recheck_needs():
+    r = plan(one_line())
+    (run,) = r.runs
+    assert (run.product, run.oven, run.oven_setting, run.tunnel_setting, run.loading) == (
+        "A",
+        "oven-1",
+        "hot",
+        "cold",
+        "full",
+    )
+    assert run.belt_speed_m_per_min == pytest.approx(1.0)
+    (b,) = r.batches
+    assert (b.oven, b.setting, b.contents[0].product) == ("oven-1", "hot", "A")
+
+
+def test_column_generation_finds_an_lp_improving_mix():
+    # 10 trays, 100 kg. A: 20 kg/tray, value 1; B: 5 kg/tray, value 3. Singles: A 5
+    # trays = 100 kg = 100; B 10 trays = 50 kg = 150. Best mix: 3 A + 7 B = 60 + 35 kg
+    # = 60 + 105 = 165 per 60-min batch (A at 50 min, B at 52 min: cycle 62 min).
+    # 480 min -> 7 batches = 1155 (7 x 62 = 434 min; an 8th would need 496).
+    prods = {
+        "A": (20.0, 50.0, 5.0, {"value_per_kg": 1.0}),
+        "B": (5.0, 52.0, 5.0, {"value_per_kg": 3.0}),
+    }
+    inp = one_line(products=prods, capacity_kg=100.0, objective=Objective.MOST_VALUE)
+    cg = plan(inp, SolveOptions(column_generation=True, shadow_prices=False))
+    full = plan(inp, SolveOptions(column_generation=False, shadow_prices=False))
+    assert cg.column_generation_rounds >= 1 and cg.mixed_loads >= 1
+    assert cg.mixed_loads < full.mixed_loads
+    # Singles only: 7 B batches (434 min) = 1050; an A batch no longer fits.
+    single = plan(inp, SolveOptions(max_mix_products=1, shadow_prices=False))
+    assert single.objective_value == pytest.approx(1050.0)
+    assert full.objective_value == pytest.approx(1155.0)
+    assert cg.objective_value == pytest.approx(1155.0)
+    (b,) = cg.batches
+    assert b.contents[0].trays == 3 and b.contents[1].trays == 7
+
+
+def test_column_generation_stays_between_singles_and_the_full_pool():
+    prods = {
+        f"P{i}": (8.0 + i, 40.0 + 2 * i, 0.6 + 0.1 * i, {"value_per_kg": 1.0 + 0.2 * i})
+        for i in range(6)
+    }
+    orders = [OrderData(p, max_kg=300.0 + 50 * i) for i, p in enumerate(prods)]
+    inp = one_line(products=prods, orders=orders, n_shifts=2)
+    opts = dict(shadow_prices=False, time_limit_s=4.0, gap_rel=1e-6)
+    single = plan(inp, SolveOptions(max_mix_products=1, **opts))
+    full = plan(inp, SolveOptions(column_generation=False, **opts))
+    cg = plan(inp, SolveOptions(column_generation=True, **opts))
+    # The singles optimum is proven; both mixed runs start from it and may only improve.
+    assert single.status is SolveStatus.OPTIMAL
+    assert cg.objective_value >= single.objective_value - 1e-6
+    assert full.objective_value >= single.objective_value - 1e-6
+    # Nothing beats the full pool's proven bound.
+    assert cg.objective_value <= full.best_bound + 1e-6
+
+
+def test_time_limit_reports_a_typed_status():
+    # Whatever the solver manages in the limit, the status is one of the enum members
+    # and a plan is present exactly when the status says so.
+    prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(5)}
+    inp = one_line(products=prods, n_shifts=3, oven_changeover=15.0, tunnel_changeover=10.0)
+    r = plan(inp, SolveOptions(time_limit_s=2.0))
+    assert isinstance(r.status, SolveStatus)
+    assert r.status.has_plan == bool(r.runs)
+
+
+def test_no_orders_for_a_product_means_it_is_not_made():
+    prods = {"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 30.0, 1.0, {})}
+    base = one_line(products=prods)
+    inp = PlanInputs(
+        base.ovens, base.tunnels, base.products, base.shifts, (OrderData("A"),), base.dwell
+    )
+    r = plan(inp)
+    assert {x.product for x in r.runs} == {"A"}
