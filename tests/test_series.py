@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -92,15 +94,19 @@ def test_series_matches_method_of_lines(shape, biot):
         assert np.max(np.abs(exact - value)) < 1e-4
 
 
-def converged_sum(shape: str, biot: float, fo: float, x: np.ndarray, terms: int) -> np.ndarray:
-    """Plain eigenfunction sum with many terms, roots found here by brentq."""
+@lru_cache(maxsize=32)
+def bisected_roots(shape: str, biot: float, terms: int) -> np.ndarray:
+    """Eigenvalues by plain bisection (100 halvings) inside the textbook brackets."""
 
     def residual(z):
         if shape == "slab":
             return z * np.sin(z) - biot * np.cos(z)
         if shape == "cylinder":
             return z * special.j1(z) - biot * special.j0(z)
-        return z * np.cos(z) + (biot - 1) * np.sin(z)
+        # sphere: (1 - ζ cot ζ - Bi) sin ζ / ζ, with sin ζ/ζ - cos ζ by Taylor near 0
+        sinc = np.sinc(z / np.pi)
+        taylor = z**2 / 3 - z**4 / 30 + z**6 / 840 - z**8 / 45360
+        return np.where(z < 0.05, taylor, sinc - np.cos(z)) - biot * sinc
 
     if shape == "cylinder":
         lo = np.concatenate(([1e-300], special.jn_zeros(1, terms - 1)))
@@ -109,7 +115,17 @@ def converged_sum(shape: str, biot: float, fo: float, x: np.ndarray, terms: int)
         n = np.arange(1, terms + 1)
         lo = (n - 1) * np.pi + 1e-12
         hi = (n - 0.5) * np.pi if shape == "slab" else n * np.pi - 1e-12
-    roots = np.array([brentq(residual, a, b, xtol=1e-15) for a, b in zip(lo, hi, strict=True)])
+    f_lo = np.sign(residual(lo))
+    for _ in range(100):
+        mid = 0.5 * (lo + hi)
+        same = np.sign(residual(mid)) == f_lo
+        lo, hi = np.where(same, mid, lo), np.where(same, hi, mid)
+    return 0.5 * (lo + hi)
+
+
+def converged_sum(shape: str, biot: float, fo: float, x: np.ndarray, terms: int) -> np.ndarray:
+    """Plain eigenfunction sum with many terms (textbook coefficient formulas)."""
+    roots = bisected_roots(shape, biot, terms)
     if shape == "slab":
         coef = 4 * np.sin(roots) / (2 * roots + np.sin(2 * roots))
         mode = np.cos(np.outer(x, roots))
@@ -123,16 +139,24 @@ def converged_sum(shape: str, biot: float, fo: float, x: np.ndarray, terms: int)
 
 
 @pytest.mark.parametrize("shape", SHAPES)
-@pytest.mark.parametrize("fo", [2e-4, 2e-3, 0.02, 0.3])
+@pytest.mark.parametrize("fo", [1e-6, 2e-5, 2e-4, 2e-3, 0.02, 0.3])
 def test_against_converged_many_term_sum(shape, fo):
     # Short and moderate times: the library's term choice and its short-time
-    # method against a plain 1500-term sum with roots from brentq. At
-    # Fo = 2e-4 the neglected terms are below exp(-(1500 π)² 2e-4) ~ 0.
-    x = np.array([0.0, 0.3, 0.7, 0.9, 0.97, 0.995])
+    # method against a plain 4000-term sum with roots found by bisection. At
+    # Fo = 1e-6 the neglected terms are below exp(-(4000 π)² 1e-6) ~ 1e-69.
+    x = np.array([0.0, 0.3, 0.7, 0.9, 0.97, 0.995, 0.9995, 1.0])
     for biot in (0.2, 3.0, 50.0):
-        exact = converged_sum(shape, biot, fo, x, 1500)
+        exact = converged_sum(shape, biot, fo, x, 4000)
         got = series.temperature_ratio(shape, biot, fo, x)
         assert np.max(np.abs(got - exact)) < 1e-9, (biot, got - exact)
+
+
+def test_eigenvalues_against_bisection_over_many_decades():
+    for shape in SHAPES:
+        for biot in (1e-6, 1e-3, 0.7, 1.0, 1.3, 40.0, 1e4, 1e7):
+            ref = bisected_roots(shape, biot, 8)
+            got = series.eigenvalues(shape, biot, 8)
+            np.testing.assert_allclose(got, ref, rtol=2e-14)
 
 
 def test_mean_against_converged_sum_and_quadrature():

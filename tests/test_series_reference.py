@@ -184,8 +184,8 @@ def test_short_times_match_semi_infinite_solid(biot):
     # convection). A slab is a semi-infinite solid near each face while the
     # other face is unfelt: at Fo <= 1e-3 the second face changes θ by less than
     # erfc(1 / (2 √Fo)) < 1e-50 — the comparison is exact to rounding.
-    fo = np.array([1e-8, 1e-6, 1e-4, 1e-3])[:, None]
-    depth = np.array([0.0, 1e-4, 1e-3, 0.01, 0.05, 0.1])[None, :]
+    fo = np.array([1e-24, 1e-19, 1e-14, 1e-8, 1e-6, 1e-4, 1e-3])[:, None]
+    depth = np.array([0.0, 1e-11, 1e-8, 1e-4, 1e-3, 0.01, 0.05, 0.1])[None, :]
     expected = semi_infinite_convective(depth, fo, biot)
     theta = series.temperature_ratio("slab", biot, fo, 1 - depth)
     np.testing.assert_allclose(theta, expected, atol=1e-10, rtol=0)
@@ -202,3 +202,16 @@ def test_short_time_surface_heat_flux_has_curvature_correction(shape, m):
     fraction = 1 - series.mean_temperature_ratio(shape, np.inf, fo)
     assert np.all(np.abs(fraction - (lead - (m + 1) * m * fo / 2)) < 3 * fo**1.5)
     assert np.all(np.abs(fraction - lead) > 0.3 * m * fo)  # the Fo term is really there
+
+
+@pytest.mark.parametrize("shape", ["cylinder", "sphere"])
+def test_curved_surfaces_at_extremely_short_times(shape):
+    # Source: Incropera et al. eq. 5.60. Curvature changes 1 - θ by a relative
+    # O(√Fo): at Fo <= 1e-14 the semi-infinite solid agrees to ~1e-7 of 1 - θ.
+    for biot in (0.5, 20.0, 1e6):
+        fo = np.array([1e-24, 1e-21, 1e-19, 1e-16, 1e-14])[:, None]
+        depth = np.array([0.0, 1e-12, 1e-9, 1e-8])[None, :]
+        position = 1 - depth
+        theta = series.temperature_ratio(shape, biot, fo, position)
+        semi = semi_infinite_convective(1 - position, fo, biot)  # depth as represented
+        assert np.all(np.abs(theta - semi) <= 1e-6 * (1 - semi) + 1e-15)

@@ -416,6 +416,41 @@ def _talbot_nodes():
 _TB_Z, _TB_DZ, _TB_H = _talbot_nodes()
 
 
+def _hankel_coefficients(nu: int, terms: int = 14) -> NDArray[np.float64]:
+    mu = 4.0 * nu * nu
+    coef = [1.0]
+    for k in range(1, terms):
+        coef.append(-coef[-1] * (mu - (2 * k - 1) ** 2) / (k * 8.0))
+    return np.array(coef)
+
+
+_HANKEL = {nu: _hankel_coefficients(nu) for nu in (0, 1)}
+
+
+def _bessel_i_scaled(nu: int, z):
+    """I_nu(z) exp(-z) for complex z with Re z > 0.
+
+    scipy's ``ive`` below |z| = 100; above, the large-argument expansion
+    (Abramowitz & Stegun 9.7.1) with 14 terms, where the neglected
+    exponentially small part is below e^(-2 Re z) and Re z > 0.27 |z| on the
+    Talbot contour used here.
+    """
+    z = np.asarray(z, dtype=complex)
+    big = np.abs(z) >= 100.0
+    out = np.empty_like(z)
+    if (~big).any():
+        zs = z[~big]
+        out[~big] = special.ive(nu, zs) * np.exp(-1j * zs.imag)
+    if big.any():
+        zb = z[big]
+        inv = 1.0 / zb
+        acc = np.zeros_like(zb)
+        for c in _HANKEL[nu][::-1]:
+            acc = acc * inv + c
+        out[big] = acc / np.sqrt(2 * np.pi * zb)
+    return out
+
+
 def _laplace_w(shape: str, p, a, b, position, mean: bool):
     """Laplace transform of w = 1 - θ (point or volume mean), Re √p > 0."""
     q = np.sqrt(p)
@@ -428,11 +463,11 @@ def _laplace_w(shape: str, p, a, b, position, mean: bool):
         ratio = (np.exp(-q * (1 - position)) + np.exp(-q * (1 + position))) / (1 + e2)
         return b * ratio / den
     if shape == "cylinder":
-        i0, i1 = special.ive(0, q), special.ive(1, q)
+        i0, i1 = _bessel_i_scaled(0, q), _bessel_i_scaled(1, q)
         den = p * (a * q * i1 + b * i0)
         if mean:
             return 2 * b * i1 / (q * den)
-        return b * special.ive(0, q * position) * np.exp(-q.real * (1 - position)) / den
+        return b * _bessel_i_scaled(0, q * position) * np.exp(-q * (1 - position)) / den
     den = p * (a * q + (b - a) * tanh)
     if mean:
         return 3 * b * (1 / q - tanh / (q * q)) / den
@@ -706,6 +741,7 @@ def _series_evaluator(z, amp):
         positive = s > 0  # a truncated sum <= 0: θ below the tail bound
         with np.errstate(invalid="ignore", divide="ignore", under="ignore"):
             log_theta = np.where(positive, base[idx] - z2[idx, 0] * fo + np.log(s), -745.0)
+            log_theta = np.minimum(log_theta, 0.0)  # θ <= 1 (rounding near Fo = 0)
             theta = np.exp(log_theta)
             dtheta = theta * np.where(positive, -z2[idx, 0] + ds / s, 0.0)
         return log_theta, theta, dtheta
@@ -757,7 +793,8 @@ def _rtsafe(evaluate, ratio, upper, u, u_floor, u_hi):
         if idx.size == 0:
             break
         ui = u[idx]
-        fo = np.exp(ui)
+        with np.errstate(over="ignore"):
+            fo = np.exp(ui)
         log_theta, theta, dtheta = evaluate(idx, fo)
         up = upper[idx]
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -773,10 +810,10 @@ def _rtsafe(evaluate, ratio, upper, u, u_floor, u_hi):
         # a Newton step below 1e-13 in ln Fo: converged (test before the bracket,
         # a step under one ulp would otherwise look like leaving it)
         small = np.isfinite(step) & (np.abs(step) <= 1e-13)
-        newton = small | (
-            np.isfinite(un) & (un > lo_i) & (un < hi_i) & (np.abs(step) < 0.75 * last[idx])
-        )
         closed = np.isfinite(lo_i) & np.isfinite(hi_i)
+        # while the bracket is open, steps are limited to a factor e³ in Fo
+        limit = np.where(closed, 0.75 * last[idx], np.minimum(0.75 * last[idx], 3.0))
+        newton = small | (np.isfinite(un) & (un > lo_i) & (un < hi_i) & (np.abs(step) < limit))
         fallback = np.where(closed, 0.5 * (lo_i + hi_i), np.where(above, ui + 2.0, ui - 2.0))
         to_floor = ~newton & ~verified[idx] & np.isfinite(lo_i) & (un <= lo_i)
         un = np.where(newton, un, np.where(to_floor, lo_i, fallback))
@@ -796,10 +833,12 @@ def _rtsafe(evaluate, ratio, upper, u, u_floor, u_hi):
 def _start_guess(shape, biot, ratio, position, fo_one):
     """Rough Fo to start from: one-term value, or a semi-infinite estimate."""
     depth = 1.0 - position
+    m = {"slab": 1.0, "cylinder": 2.0, "sphere": 3.0}[shape]
     with np.errstate(divide="ignore", over="ignore"):
         eta = special.erfcinv(np.clip(1.0 - ratio, 1e-300, 1.0))
-        semi = ((depth + 1.0 / biot) / (2.0 * np.maximum(eta, 1e-3))) ** 2
-    guess = np.where(np.isfinite(fo_one) & (fo_one > 0.2), fo_one, semi)
+        # penetration to this depth (fixed surface), or lumped-like loss m Bi Fo
+        early = np.maximum((depth / (2.0 * np.maximum(eta, 1e-3))) ** 2, (1 - ratio) / (m * biot))
+    guess = np.where(np.isfinite(fo_one) & (fo_one > 0.2), fo_one, early)
     guess = np.where(np.isfinite(guess) & (guess > 0), guess, 1.0)
     return np.clip(guess, 1e-280, 1e280)
 
