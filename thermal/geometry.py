@@ -628,21 +628,29 @@ def time_to_temperature(
     # product of n decreasing factors: if every factor is above r^(1/n) the
     # product is above r; once any factor is below r so is the product
     n = len(dirs)
-    t_each = []
-    for kind, length, x, bi in dirs:
+    t_each = np.empty((n, 2))
+    for kind in {d[0] for d in dirs}:  # one vectorised inversion per series shape
+        rows = [i for i, d in enumerate(dirs) if d[0] == kind]
+        bi = np.array([[dirs[i][3]] for i in rows])
+        x = np.array([[dirs[i][2]] for i in rows])
+        scale = np.array([[dirs[i][1] ** 2 / aa] for i in rows])
         fo = series.fourier_for_ratio(kind, bi, np.array([ratio, ratio ** (1 / n)]), x)
-        t_each.append(fo * length**2 / aa)
-    t_each = np.array(t_each)
+        t_each[rows] = fo * scale
     t_hi = float(t_each[:, 0].min())
     t_lo = float(t_each[:, 1].min())
     if t_hi == 0.0:
         return 0.0
     log_r = math.log(ratio)
+    # one θ(Fo) per direction with its eigen data computed once (valid from t_lo)
+    factors = [
+        (series._point_evaluator(kind, bi, x, aa * t_lo / length**2), aa / length**2)
+        for kind, length, x, bi in dirs
+    ]
 
     def gap(t: float) -> float:
         total = 0.0
-        for kind, length, x, bi in dirs:
-            theta = float(series.temperature_ratio(kind, bi, aa * t / length**2, x))
+        for theta_of, scale in factors:
+            theta = theta_of(scale * t)
             if theta <= 0.0:
                 return -math.inf
             total += math.log(theta)

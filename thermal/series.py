@@ -722,6 +722,33 @@ def mean_temperature_ratio(shape: str, biot: ArrayLike, fourier: ArrayLike) -> N
     return _evaluate(shape, bi, fo, np.zeros(1), mean=True).reshape(out_shape)
 
 
+def _point_evaluator(shape: str, biot: float, position: float, fo_min: float):
+    """θ(Fo) for one case as a fast scalar function.
+
+    The eigen data are computed once, with enough terms for Fo >= fo_min;
+    used by root finders that evaluate θ many times for the same body (the
+    product solution's inverse in :mod:`thermal.geometry`). Shorter times and
+    the trivial cases go through the general evaluation.
+    """
+    one = (np.array([biot]), np.array([position]))
+
+    def general(fo: float) -> float:
+        return float(_evaluate(shape, one[0], np.array([fo]), one[1], False)[0])
+
+    k = int(_terms_needed(shape, np.array([fo_min]))[0])
+    if biot == 0 or (np.isinf(biot) and position == 1.0) or k > MAX_SERIES_TERMS:
+        return general
+    z, amp = _series_terms(shape, one[0], one[1], k, False)
+    z2, amp = (z * z)[0], amp[0]
+
+    def fast(fo: float) -> float:
+        if fo < fo_min:
+            return general(fo)
+        return min(max(float(np.dot(amp, np.exp(-z2 * fo))), 0.0), 1.0)
+
+    return fast
+
+
 # --------------------------------------------------------------------------
 # inverse problem
 # --------------------------------------------------------------------------
