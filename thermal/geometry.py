@@ -521,26 +521,33 @@ def _scalar(name: str, arr: NDArray[np.float64]) -> float:
     return float(arr)
 
 
+def _fmt(value: float) -> str:
+    """Temperature for messages: up to 6 significant digits, always a decimal point."""
+    text = f"{value:.6g}"
+    return text if ("." in text or "e" in text or "n" in text) else text + ".0"
+
+
 def _target_ratio(t_initial: float, t_air: float, t_target: float, where: str) -> float:
     """θ of the target, or UnreachableTargetError with the physical reason."""
+    t_initial, t_air, t_target = float(t_initial), float(t_air), float(t_target)
+    ta, tt = _fmt(t_air), _fmt(t_target)
     if t_initial == t_air:
         if t_target == t_initial:
             return 1.0
         raise UnreachableTargetError(
-            f"t_target: the product starts at the air temperature ({t_air} °C), so it stays "
-            f"there and never reaches {t_target} °C"
+            f"t_target: the product starts at the air temperature ({ta} °C), so it stays "
+            f"there and never reaches {tt} °C"
         )
     cooling = t_initial > t_air
     verb = "below" if cooling else "above"
     if (cooling and t_target < t_air) or (not cooling and t_target > t_air):
         raise UnreachableTargetError(
-            f"t_target: air at {t_air} °C cannot bring the {where} {verb} {t_air} °C "
-            f"(target {t_target} °C)"
+            f"t_target: air at {ta} °C cannot bring the {where} {verb} {ta} °C (target {tt} °C)"
         )
     if t_target == t_air:
         raise UnreachableTargetError(
-            f"t_target: air at {t_air} °C brings the {where} to {t_air} °C only after "
-            "infinite time; choose a target short of the air temperature"
+            f"t_target: air at {ta} °C brings the {where} to {ta} °C only after infinite "
+            "time; choose a target short of the air temperature"
         )
     return (t_target - t_air) / (t_initial - t_air)
 
@@ -616,7 +623,7 @@ def time_to_temperature(
         return 0.0
     if hh == 0.0:
         raise UnreachableTargetError(
-            f"h: with h = 0 there is no heat exchange; the {where} stays at {ti} °C"
+            f"h: with h = 0 there is no heat exchange; the {where} stays at {_fmt(ti)} °C"
         )
     dirs = [
         (kind, length, x, hh * length / kk)
@@ -783,7 +790,7 @@ def lumped_time(
         return 0.0
     if hh == 0.0:
         raise UnreachableTargetError(
-            f"h: with h = 0 there is no heat exchange; the product stays at {ti} °C"
+            f"h: with h = 0 there is no heat exchange; the product stays at {_fmt(ti)} °C"
         )
     tau = _scalar("rho", positive("rho", rho)) * _scalar("cp", positive("cp", cp))
     tau *= shape.characteristic_length / hh
