@@ -446,3 +446,23 @@ def test_zone_segments_bad_input():
         zone_segments([5.0, -1.0], 0.1, [2.0, 2.0], [20.0, 20.0])
     with pytest.raises(ThermalInputError, match=r"^t_air"):
         zone_segments([5.0, 1.0], 0.1, [2.0], [20.0, 20.0])
+
+
+# --- with the project's own shapes and property objects ----------------------
+
+
+def test_project_shapes_and_constant_properties_against_product_solution():
+    # Cross-method: thermal.geometry product solution (exact series) against
+    # the LOD finite-volume solution for a finite cylinder, with
+    # thermal.foods.ConstantProperties as the property object.
+    geometry = pytest.importorskip("thermal.geometry")
+    foods = pytest.importorskip("thermal.foods")
+    shape = geometry.FiniteCylinder(radius=0.025, length=0.06)
+    props = foods.ConstantProperties(conductivity=0.45, density=1080.0, specific_heat=3400.0)
+    res = simulate(shape, props, 4.0, [Segment(2700.0, 85.0, 30.0)], n_cells=28, dt=25.0)
+    t = res.times[0, 10::10]
+    ref = geometry.temperature_at(
+        shape, k=0.45, h=30.0, time=t, t_initial=4.0, t_air=85.0, rho=1080.0, cp=3400.0
+    )
+    assert np.abs(res.core[0, 10::10] - ref).max() < 0.05
+    assert res.grid.kind == "finite_cylinder"
