@@ -37,8 +37,10 @@ Choices made here (all conservative or neutral)
   earliest time every clause is met (crossings interpolated); a final run
   that ends exactly at that dwell is checked and reported.
 * Chill: the core at tunnel exit falls as the residence grows, so the
-  shortest residence meeting the exit limit is bracketed on batched runs and
-  refined. Cooling windows are measured from the oven exit (transfer
+  shortest residence meeting the exit limit is bracketed by one coarse
+  batched scan (many residences in one solver call) and refined by regula
+  falsi (Illinois) on full-accuracy runs; the transfer, the same for every
+  residence, is run once. Cooling windows are measured from the oven exit (transfer
   included), from when the core first is at or below the step's
   ``from_temp``. With zone air temperatures that do not rise along the
   tunnel, a longer residence only keeps the product in warmer zones longer,
