@@ -123,7 +123,7 @@ _KELVIN = -ABSOLUTE_ZERO_C
 _CENTRE_WEIGHTS = (9.0 / 8.0, -1.0 / 8.0)
 _SHAPES_1D = ("slab", "cylinder", "sphere")
 _DEFAULT_CELLS = {1: 32, 2: 24, 3: 20}
-_START_FRACTIONS = [0.125, 0.125, 0.25, 0.5]
+_START_FRACTIONS = [1 / 64, 1 / 64, 1 / 32, 1 / 16, 1 / 8, 1 / 4, 1 / 2]
 
 
 class SolverConvergenceError(RuntimeError):
