@@ -382,6 +382,13 @@ class SolveOptions:
         ``max_enumerated_loads``).
     max_enumerated_loads : int
         Pool size above which column generation is used automatically.
+    formulation : str
+        ``"compact"`` (default: integer batches per load and shift, exact)
+        or ``"patterns"`` (one choice of oven-shift pattern per oven and
+        shift, patterns generated from LP duals by knapsack pricing, then
+        the MILP over the generated patterns only - a heuristic: on the
+        benchmark plants it found worse plans than ``"compact"``; its bound
+        is the pattern LP's).
     shadow_prices : bool
         Compute shadow prices of machine time after the MILP.
     diagnose : bool
@@ -398,7 +405,8 @@ class SolveOptions:
     mix_tolerance: float = 0.15
     max_mix_products: int = 2
     column_generation: bool | None = None
-    max_enumerated_loads: int = 4000
+    max_enumerated_loads: int = 500
+    formulation: str = "compact"
     shadow_prices: bool = True
     diagnose: bool = True
     msg: bool = False
@@ -414,6 +422,10 @@ class SolveOptions:
         if self.max_mix_products not in (1, 2):
             raise PlanInputError(
                 f"options.max_mix_products: must be 1 or 2, got {self.max_mix_products!r}"
+            )
+        if self.formulation not in ("compact", "patterns"):
+            raise PlanInputError(
+                f"options.formulation: must be 'compact' or 'patterns', got {self.formulation!r}"
             )
         if not isinstance(self.max_enumerated_loads, int) or self.max_enumerated_loads < 0:
             raise PlanInputError(

@@ -554,3 +554,170 @@ def price_mixed_loads(
         out.extend(items[:limit_per_oven_setting])
     out.sort(key=lambda x: (-x[0], x[1].key))
     return out
+
+
+@dataclass(frozen=True)
+class ShiftPattern:
+    """What one oven does in one shift: batches of each load, settings in order.
+
+    Parameters
+    ----------
+    oven, shift : str
+        Keys.
+    counts : tuple of (str, int)
+        Load key -> number of batches, sorted by load key [-].
+    minutes : float
+        Batch cycles plus setting changeovers (the first setting is free)
+        [min].
+    settings : tuple of str
+        Settings the pattern runs, sorted.
+    """
+
+    oven: str
+    shift: str
+    counts: tuple[tuple[str, int], ...]
+    minutes: float
+    settings: tuple[str, ...]
+
+    @property
+    def key(self) -> str:
+        """Stable text key."""
+        body = ",".join(f"{k}*{n}" for k, n in self.counts) or "idle"
+        return f"{self.oven}{_KEY_SEP}{self.shift}{_KEY_SEP}{body}"
+
+
+def make_pattern(
+    oven: str,
+    shift: str,
+    counts: Mapping[str, int],
+    loads: Mapping[str, BatchLoad],
+    changeover_min: float,
+) -> ShiftPattern:
+    """A :class:`ShiftPattern` from batch counts, with its exact minutes."""
+    items = tuple(sorted((k, int(n)) for k, n in counts.items() if n > 0))
+    settings = tuple(sorted({loads[k].setting for k, _ in items}))
+    minutes = sum(loads[k].cycle_min * n for k, n in items)
+    minutes += changeover_min * max(0, len(settings) - 1)
+    return ShiftPattern(oven, shift, items, minutes, settings)
+
+
+def _unbounded_knapsack(capacity: int, sizes: list[int], values: list[float]):
+    """Best value within each budget 0..capacity and the choice per budget."""
+    best = [0.0] * (capacity + 1)
+    choice = [-1] * (capacity + 1)
+    for t in range(1, capacity + 1):
+        b, c = best[t - 1], -1
+        for i, (sz, v) in enumerate(zip(sizes, values, strict=True)):
+            if sz <= t:
+                cand = best[t - sz] + v
+                if cand > b + 1e-12:
+                    b, c = cand, i
+        best[t], choice[t] = b, c
+    return np.asarray(best), choice
+
+
+def _pareto_items(items: list[tuple[int, float, str]]) -> list[tuple[int, float, str]]:
+    """Drop items beaten by one no longer and at least as valuable."""
+    items = sorted(items, key=lambda x: (x[0], -x[1], x[2]))
+    out: list[tuple[int, float, str]] = []
+    top = -math.inf
+    for sz, v, k in items:
+        if v > top + 1e-12:
+            out.append((sz, v, k))
+            top = v
+    return out
+
+
+def best_shift_pattern(
+    items_by_setting: Mapping[str, list[tuple[float, float, str]]],
+    available_min: float,
+    changeover_min: float,
+) -> dict[str, int]:
+    """Knapsack pricing of one oven-shift: the batch counts of most value.
+
+    Each setting's loads form an unbounded knapsack over minutes; settings
+    are combined with a changeover between them (the first is free). Cycle
+    and changeover minutes are rounded up to whole minutes for the search, so
+    the pattern found always fits the exact minutes.
+
+    Parameters
+    ----------
+    items_by_setting : mapping
+        setting -> list of (cycle [min], value per batch [objective units],
+        load key); only positive values are useful.
+    available_min : float
+        Oven minutes in the shift [min].
+    changeover_min : float
+        Minutes per change of setting [min].
+
+    Returns
+    -------
+    dict
+        Load key -> batches (empty when nothing has positive value).
+    """
+    cap = math.floor(available_min + 1e-9)
+    if cap <= 0:
+        return {}
+    co = math.ceil(changeover_min - 1e-9)
+    per_setting = []
+    for os_ in sorted(items_by_setting):
+        raw = [
+            (math.ceil(c - 1e-9), v, k)
+            for c, v, k in items_by_setting[os_]
+            if v > 1e-12 and c <= cap
+        ]
+        its = _pareto_items(raw)
+        if not its:
+            continue
+        f, ch = _unbounded_knapsack(cap, [i[0] for i in its], [i[1] for i in its])
+        per_setting.append((os_, its, f, ch))
+    if not per_setting:
+        return {}
+    t_idx = np.arange(cap + 1)
+    u_idx = np.arange(cap + 1)
+    prev_idx = t_idx[:, None] - u_idx[None, :] - co  # budget left before this setting
+    valid = (prev_idx >= 0) & (u_idx[None, :] >= 1)
+    prev_safe = np.where(valid, prev_idx, 0)
+    b = np.full(cap + 1, -np.inf)
+    history = []
+    for _os, _its, f, _ch in per_setting:
+        first = f.copy()
+        combo = np.where(valid, b[prev_safe] + f[None, :], -np.inf)
+        arg = np.argmax(combo, axis=1)
+        combo_best = combo[t_idx, arg]
+        code = np.zeros(cap + 1, dtype=int)  # 0 skip, 1 first setting, 2 after another
+        new_b = b.copy()
+        better_first = first > new_b + 1e-12
+        new_b = np.where(better_first, first, new_b)
+        code[better_first] = 1
+        better_combo = combo_best > new_b + 1e-12
+        new_b = np.where(better_combo, combo_best, new_b)
+        code[better_combo] = 2
+        history.append((code, arg))
+        b = new_b
+    if not b[cap] > 1e-12:
+        return {}
+    counts: dict[str, int] = defaultdict(int)
+
+    def take(j: int, budget: int) -> None:
+        _os, its, _f, ch = per_setting[j]
+        while budget > 0:
+            i = ch[budget]
+            if i < 0:
+                budget -= 1
+            else:
+                counts[its[i][2]] += 1
+                budget -= its[i][0]
+
+    t = cap
+    for j in range(len(per_setting) - 1, -1, -1):
+        code, arg = history[j]
+        if code[t] == 0:
+            continue
+        if code[t] == 1:
+            take(j, t)
+            break
+        u = int(arg[t])
+        take(j, u)
+        t = t - u - co
+    return dict(counts)

@@ -5,6 +5,23 @@
 shadow prices of machine time, or - without one - the elastic re-solve that
 names the smallest shortfalls.
 
+Compact formulation (default): the MILP is solved in two stages, first with
+single-product loads only (at most ``SINGLES_STAGE_SHARE`` of the time
+limit), then with every load, warm-started from the first plan: mixed loads
+add many near-equal alternatives and the start keeps the search from doing
+worse than the singles-only plan.
+
+Pattern formulation (``SolveOptions.formulation = "patterns"``): oven-shift
+patterns are generated on the LP (duals of the flow rows give the value of
+each kg an oven setting unloads; the best pattern of each oven and shift is
+an exact knapsack over whole minutes, see
+:func:`optimizer.loads.best_shift_pattern`), then the MILP picks one pattern
+per oven and shift from those generated. The bound reported is the pattern
+LP's at convergence, so the gap is honest; the MILP over generated columns
+is a heuristic and on the benchmark plants it did worse than the compact
+formulation. If the generated patterns cannot meet the order minimums the
+compact formulation is solved instead.
+
 Only this module and :mod:`optimizer.model` import PuLP.
 
 Status is read from ``prob.status`` and ``prob.sol_status``: a time limit
@@ -20,10 +37,18 @@ import warnings
 from collections import defaultdict
 
 import highspy
+import numpy as np
 import pulp
 
 from optimizer.inputs import Objective, PlanInputs, SolveOptions
-from optimizer.loads import Candidates, candidates, price_mixed_loads
+from optimizer.loads import (
+    Candidates,
+    ShiftPattern,
+    best_shift_pattern,
+    candidates,
+    make_pattern,
+    price_mixed_loads,
+)
 from optimizer.model import PlanModel, build_model
 from optimizer.results import (
     OBJECTIVE_UNITS,
@@ -260,10 +285,16 @@ _SLACK_UNITS = {
 }
 
 
-def _slacks(model: PlanModel) -> tuple[ConstraintSlack, ...]:
+def _slacks(model: PlanModel, use: tuple[MachineUse, ...]) -> tuple[ConstraintSlack, ...]:
     out = []
     for group, unit in _SLACK_UNITS.items():
         rows = model.rows.get(group, {})
+        if group == "oven_time" and model.pattern_mode:
+            free = [max(0.0, u.available_min - u.used_min) for u in use if u.kind == "oven"]
+            if free:
+                binding = sum(1 for x in free if x <= 1e-6)
+                out.append(ConstraintSlack(group, len(free), binding, sum(free), min(free), unit))
+            continue
         if not rows:
             continue
         values = []
@@ -356,6 +387,257 @@ def _diagnose(
     return tuple(s for _, s in items), ""
 
 
+PATTERN_PRICING_SHARE = 0.35
+"""Share of the time limit pattern generation may use [-]."""
+
+MAX_PATTERN_ROUNDS = 60
+"""Most pattern-generation rounds [-]."""
+
+
+def _pareto(cycles_g: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Indices of loads no shorter-or-equal load beats in value (positive values only)."""
+    pos = np.flatnonzero(values > 1e-12)
+    if pos.size == 0:
+        return pos
+    order = pos[np.lexsort((-values[pos], cycles_g[pos]))]
+    v = values[order]
+    prev_max = np.maximum.accumulate(np.concatenate(([-np.inf], v[:-1])))
+    return order[v > prev_max + 1e-12]
+
+
+def _penalty(inputs: PlanInputs) -> float:
+    """Phase-1 cost per kg short: far above any objective coefficient per kg."""
+    per_kg = [1.0]
+    per_kg += [p.value_per_kg for p in inputs.products]
+    if inputs.objective is Objective.LEAST_ENERGY:
+        d = inputs.dwell
+        per_kg.append(
+            float((d["heat_in_kj_per_kg"].fillna(0) + d["heat_out_kj_per_kg"].fillna(0)).max())
+        )
+    if inputs.objective is Objective.SOONEST:
+        per_kg.append(sum(o.weight for o in inputs.orders) * len(inputs.shifts))
+    return 1e3 * max(per_kg)
+
+
+def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions, solver: str):
+    """Pattern formulation: generate oven-shift patterns on the LP, then the MILP.
+
+    Returns (model, status, gap, bound, seconds, rounds, notes, build seconds).
+    """
+    tb = time.perf_counter()
+    ovens = {o.name: o for o in inputs.ovens}
+    shifts = [s.name for s in inputs.shifts]
+    loads = [*cand.singles, *cand.mixed_pool]
+    by_oven: dict[str, dict[str, list]] = defaultdict(lambda: defaultdict(list))
+    for ld in loads:
+        by_oven[ld.oven][ld.setting].append(ld)
+    # Per (oven, setting): kg matrix over that oven's products, cycles.
+    blocks = {}
+    for o, per in by_oven.items():
+        for os_, lds in per.items():
+            prods = sorted({p for ld in lds for p in ld.products})
+            pidx = {p: i for i, p in enumerate(prods)}
+            kg = np.zeros((len(lds), len(prods)))
+            for i, ld in enumerate(lds):
+                for p, m in ld.kg:
+                    kg[i, pidx[p]] = m
+            cyc = np.array([ld.cycle_min for ld in lds])
+            blocks[(o, os_)] = (lds, prods, kg, cyc, np.ceil(cyc - 1e-9))
+    init: dict[tuple[str, str], list[ShiftPattern]] = defaultdict(list)
+    lookup = {ld.key: ld for ld in loads}
+    for s in inputs.shifts:
+        for ld in cand.singles:
+            n = math.floor(s.available(ld.oven) / ld.cycle_min + 1e-9)
+            if n >= 1:
+                init[(ld.oven, s.name)].append(
+                    make_pattern(
+                        ld.oven, s.name, {ld.key: n}, lookup, ovens[ld.oven].changeover_min
+                    )
+                )
+    model = build_model(inputs, cand, cand.mixed_pool, patterns=init, penalty=_penalty(inputs))
+    build_s = time.perf_counter() - tb
+    t0 = time.perf_counter()
+    notes: list[str] = []
+    rounds = 0
+    last_lp = None
+    converged = False
+    budget = PATTERN_PRICING_SHARE * options.time_limit_s
+    tie = model.tie_per_min
+    for _ in range(MAX_PATTERN_ROUNDS):
+        if time.perf_counter() - t0 > budget:
+            notes.append(
+                "pattern generation stopped at its time share; the bound is not the full LP's"
+            )
+            break
+        _set_relaxed(model, True)
+        status, *_ = _run(model.prob, solver, options, mip=False)
+        if status is not SolveStatus.OPTIMAL:
+            notes.append(f"pattern generation stopped: LP {status.value}")
+            break
+        rounds += 1
+        last_lp = float(model.prob.objective.value())
+        pi = {k: float(r.pi or 0.0) for k, r in model.rows["flow"].items()}
+        mu = {k: float(r.pi or 0.0) for k, r in model.rows["pattern_choice"].items()}
+        added = 0
+        for (o, s), mu_os in sorted(mu.items()):
+            oven = ovens[o]
+            items: dict[str, list] = {}
+            for os_ in oven.settings:
+                blk = blocks.get((o, os_))
+                if blk is None:
+                    continue
+                lds, prods, kg, cyc, cyc_g = blk
+                price = np.array([pi.get((p, o, os_, s), 0.0) for p in prods])
+                values = kg @ np.maximum(price, 0.0) - tie * cyc
+                keep = _pareto(cyc_g, values)
+                if keep.size:
+                    items[os_] = [(float(cyc[i]), float(values[i]), lds[i].key) for i in keep]
+            avail_min = inputs.shifts[shifts.index(s)].available(o)
+            tries = [items] + ([{k: v} for k, v in sorted(items.items())] if len(items) > 1 else [])
+            for its in tries:
+                counts = best_shift_pattern(its, avail_min, oven.changeover_min)
+                if not counts:
+                    continue
+                pat = make_pattern(o, s, counts, lookup, oven.changeover_min)
+                gain = 0.0
+                for lk, n in pat.counts:
+                    ld = lookup[lk]
+                    for p, m in ld.kg:
+                        gain += n * m * max(0.0, pi.get((p, o, ld.setting, s), 0.0))
+                rc = tie * pat.minutes - gain - mu_os
+                if rc < -1e-7 * (1.0 + abs(mu_os)) and model.add_pattern(pat):
+                    added += 1
+        if added == 0:
+            converged = True
+            break
+    if last_lp is not None:
+        _add_rounded_patterns(model, ovens, lookup)
+    _set_relaxed(model, False)
+    # The shortfall variables stay, at their penalty, so the MILP over the generated
+    # patterns always has a plan; one that still falls short counts as "not found".
+    rest = max(options.time_limit_s - (time.perf_counter() - t0), 0.2 * options.time_limit_s)
+    status, gap, bound, _dt, msg = _run(model.prob, solver, options, time_limit=rest)
+    if msg:
+        notes.append(msg)
+    if status.has_plan and any((v.value() or 0.0) > 1e-6 for v in model.short.values()):
+        notes.append("the generated patterns cannot meet every order minimum")
+        status = SolveStatus.INFEASIBLE
+    # The MILP's own bound holds only over the generated patterns; the valid bound is
+    # the pattern LP at convergence (no pattern left with a negative reduced cost).
+    gap = bound = None
+    if status.has_plan and converged and last_lp is not None:
+        incumbent = float(model.prob.objective.value())
+        bound = last_lp
+        gap = max(0.0, incumbent - bound) / max(abs(incumbent), 1e-9)
+        status = SolveStatus.OPTIMAL if gap <= options.gap_rel else SolveStatus.FEASIBLE_WITH_GAP
+    elif status.has_plan:
+        status = SolveStatus.FEASIBLE_WITH_GAP
+    return model, status, gap, bound, time.perf_counter() - t0, rounds, notes, build_s
+
+
+def _add_rounded_patterns(model: PlanModel, ovens: dict, lookup: dict) -> int:
+    """Add, per oven and shift, the LP's pattern mix rounded to whole batches.
+
+    The LP may mix patterns (e.g. half "all A" and half "all B") where no
+    generated pattern is the whole-batch version of that mix; rounding the
+    mixed batch counts down and filling the minutes left with the loads of
+    largest remainder (same settings, so no new changeover) gives one.
+    """
+    mix: dict[tuple[str, str], dict[str, float]] = defaultdict(lambda: defaultdict(float))
+    for key, v in model.lam.items():
+        val = float(v.varValue or 0.0)
+        if val <= 1e-9:
+            continue
+        pat = model.patterns[key]
+        for lk, n in pat.counts:
+            mix[(pat.oven, pat.shift)][lk] += val * n
+    added = 0
+    for (o, s), frac in sorted(mix.items()):
+        oven = ovens[o]
+        counts = {lk: math.floor(x + 1e-9) for lk, x in frac.items()}
+        pat = make_pattern(o, s, counts, lookup, oven.changeover_min)
+        left = model.available(o, s) - pat.minutes
+        settings = set(pat.settings)
+        for lk in sorted(frac, key=lambda k: (-(frac[k] - counts[k]), k)):
+            ld = lookup[lk]
+            if frac[lk] - counts[lk] <= 1e-9 or (settings and ld.setting not in settings):
+                continue
+            extra = ld.cycle_min + (oven.changeover_min if not settings and pat.counts else 0.0)
+            if extra <= left + 1e-9:
+                counts[lk] += 1
+                left -= ld.cycle_min
+                settings.add(ld.setting)
+        pat = make_pattern(o, s, counts, lookup, oven.changeover_min)
+        if pat.minutes <= model.available(o, s) + 1e-9 and model.add_pattern(pat):
+            added += 1
+    return added
+
+
+def _extract_patterns(model: PlanModel):
+    """Batches, runs and machine use from a solved pattern model."""
+    inputs = model.inputs
+    shifts = [s.name for s in inputs.shifts]
+    order = {s: i for i, s in enumerate(shifts)}
+    chosen = {
+        (model.patterns[k].oven, model.patterns[k].shift): model.patterns[k]
+        for k, v in model.lam.items()
+        if (v.value() or 0.0) > 0.5
+    }
+    _b, runs, _u = _extract(model)
+    taken: dict[tuple[str, str, str, str], float] = defaultdict(float)
+    for r in runs:
+        taken[(r.product, r.oven, r.oven_setting, r.shift)] += r.kg
+    batches = []
+    for (o, s), pat in sorted(chosen.items()):
+        caps: dict[tuple[str, str], float] = defaultdict(float)
+        for lk, n in pat.counts:
+            ld = model.loads[lk]
+            for p, m in ld.kg:
+                caps[(p, ld.setting)] += m * n
+        for lk, n in pat.counts:
+            ld = model.loads[lk]
+            # Batches the planned kg need (a pattern may hold more than the tunnels take).
+            need = max(
+                math.ceil(
+                    taken[(p, o, ld.setting, s)]
+                    * ld.kg_of(p)
+                    * n
+                    / caps[(p, ld.setting)]
+                    / ld.kg_of(p)
+                    - 1e-6
+                )
+                for p, _t in ld.trays
+            )
+            n = min(n, need)
+            if n < 1:
+                continue
+            contents = tuple(
+                BatchContent(
+                    p,
+                    trays,
+                    ld.kg_of(p),
+                    taken[(p, o, ld.setting, s)] * ld.kg_of(p) * n / caps[(p, ld.setting)],
+                )
+                for p, trays in ld.trays
+            )
+            batches.append(
+                PlannedBatch(
+                    o, s, ld.setting, lk, ld.description, n, ld.cook_min, ld.cycle_min, contents
+                )
+            )
+    batches.sort(key=lambda b: (b.oven, order[b.shift], b.load))
+    use = []
+    for oven in inputs.ovens:
+        for s in shifts:
+            mine = [b for b in batches if b.oven == oven.name and b.shift == s]
+            nset = len({b.setting for b in mine})
+            co = oven.changeover_min * max(0, nset - 1)
+            used = sum(b.minutes for b in mine) + co
+            use.append(MachineUse(oven.name, "oven", s, used, co, model.available(oven.name, s)))
+    use.extend(u for u in _u if u.kind == "tunnel")
+    return tuple(batches), runs, tuple(use), chosen
+
+
 SINGLES_STAGE_SHARE = 0.3
 """Share of the time limit the singles-only first stage may use [-]."""
 
@@ -383,45 +665,26 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions):
     return status, gap, bound, dt1 + dt2, msg
 
 
-def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
-    """Plan the shifts: the MILP from the dwell table, solved, with diagnostics.
-
-    Parameters
-    ----------
-    inputs : PlanInputs
-        Plant, products, shifts, orders, dwell table and objective.
-    options : SolveOptions, optional
-        Solver, time limit [s], gap [-], mixing and diagnostics options.
-
-    Returns
-    -------
-    PlanResult
-        Status, objective, plan (batches and tunnel runs), machine use,
-        shadow prices, slack and - when nothing fits - the shortfalls.
-    """
-    options = options or SolveOptions()
+def _compact_solve(inputs: PlanInputs, cand: Candidates, options: SolveOptions, notes: list):
+    """Compact formulation: build, optional mixed-load column generation, staged MILP."""
     t0 = time.perf_counter()
-    cand = candidates(inputs, options.mix_tolerance, options.max_mix_products)
     use_cg = (
         options.column_generation
         if options.column_generation is not None
         else len(cand.mixed_pool) > options.max_enumerated_loads
     )
     use_cg = bool(use_cg) and options.max_mix_products >= 2
-    notes: list[str] = []
     first = options.solver
     other = "cbc" if first == "highs" else "highs"
     model = build_model(inputs, cand, [] if use_cg else cand.mixed_pool)
     build_s = time.perf_counter() - t0
-    pricing_rounds = 0
+    rounds = 0
     solve_s = 0.0
     if use_cg:
         tc = time.perf_counter()
-        pricing_rounds, cg_notes = _generate_columns(model, inputs, cand, options, first)
+        rounds, cg_notes = _generate_columns(model, inputs, cand, options, first)
         notes.extend(cg_notes)
         solve_s += time.perf_counter() - tc
-    mixed = [ld for ld in model.loads.values() if ld.is_mixed]
-
     status, gap, bound, dt, msg = _staged_solve(model, first, options)
     solve_s += dt
     used = first
@@ -432,6 +695,83 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
         used = other
     if msg:
         notes.append(msg)
+    return model, status, gap, bound, used, build_s, solve_s, rounds
+
+
+def _pattern_shadow_prices(
+    inputs: PlanInputs,
+    cand: Candidates,
+    pm: PlanModel,
+    chosen: dict,
+    options: SolveOptions,
+    solver: str,
+):
+    """Shadow prices for a pattern plan, from the compact LP with its on/off choices."""
+    mixed = sorted(
+        {pm.loads[lk] for pat in chosen.values() for lk, _ in pat.counts if pm.loads[lk].is_mixed},
+        key=lambda ld: ld.key,
+    )
+    cm = build_model(inputs, cand, mixed)
+    for (o, os_, s), v in cm.z.items():
+        pat = chosen.get((o, s))
+        v.varValue = 1.0 if pat is not None and os_ in pat.settings else 0.0
+    for key, v in cm.y.items():
+        src = pm.y.get(key)
+        v.varValue = float(round(src.value() or 0.0)) if src is not None else 0.0
+    for key, v in cm.f.items():
+        src = pm.f.get(key)
+        v.varValue = float(round(src.value() or 0.0)) if src is not None else 0.0
+    return _shadow_prices(cm, options, solver)
+
+
+def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
+    """Plan the shifts: the MILP from the dwell table, solved, with diagnostics.
+
+    Parameters
+    ----------
+    inputs : PlanInputs
+        Plant, products, shifts, orders, dwell table and objective.
+    options : SolveOptions, optional
+        Solver, time limit [s], gap [-], mixing, formulation and diagnostics
+        options.
+
+    Returns
+    -------
+    PlanResult
+        Status, objective, plan (batches and tunnel runs), machine use,
+        shadow prices, slack and - when nothing fits - the shortfalls.
+    """
+    options = options or SolveOptions()
+    t0 = time.perf_counter()
+    cand = candidates(inputs, options.mix_tolerance, options.max_mix_products)
+    if options.max_mix_products < 2:
+        cand = Candidates(cand.cook, cand.routes, cand.singles, (), cand.excluded)
+    notes: list[str] = []
+    cand_s = time.perf_counter() - t0
+    chosen = None
+    pricing_rounds = 0
+    if options.formulation == "patterns":
+        model, status, gap, bound, solve_s, pricing_rounds, pnotes, pb = _solve_patterns(
+            inputs, cand, options, options.solver
+        )
+        notes.extend(pnotes)
+        used = options.solver
+        build_s = cand_s + pb
+        if status in (SolveStatus.INFEASIBLE, SolveStatus.ERROR, SolveStatus.NO_SOLUTION_IN_TIME):
+            notes.append(f"pattern formulation gave {status.value}; solved the compact formulation")
+            model, status, gap, bound, used, b2, s2, pricing_rounds = _compact_solve(
+                inputs, cand, options, notes
+            )
+            build_s += b2
+            solve_s += s2
+        elif status.has_plan:
+            chosen = True
+    else:
+        model, status, gap, bound, used, b2, solve_s, pricing_rounds = _compact_solve(
+            inputs, cand, options, notes
+        )
+        build_s = cand_s + b2
+    mixed = sorted({ld for ld in model.loads.values() if ld.is_mixed}, key=lambda ld: ld.key)
 
     unit = OBJECTIVE_UNITS[inputs.objective]
     maximise = inputs.objective in (Objective.MOST_KG, Objective.MOST_VALUE)
@@ -445,15 +785,21 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
         column_generation_rounds=pricing_rounds,
     )
     if status.has_plan:
-        batches, runs, use = _extract(model)
+        if chosen:
+            batches, runs, use, chosen = _extract_patterns(model)
+        else:
+            batches, runs, use = _extract(model)
         value = model.primary_value()
-        slacks = _slacks(model)
+        slacks = _slacks(model, use)
         if bound is not None:
             bound = -bound if maximise else bound
         prices: tuple[ShadowPrice, ...] = ()
         if options.shadow_prices:
             ts = time.perf_counter()
-            prices, note = _shadow_prices(model, options, used)
+            if chosen:
+                prices, note = _pattern_shadow_prices(inputs, cand, model, chosen, options, used)
+            else:
+                prices, note = _shadow_prices(model, options, used)
             solve_s += time.perf_counter() - ts
             if note:
                 notes.append(note)

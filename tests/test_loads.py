@@ -22,7 +22,13 @@ from optimizer.inputs import (
     SolveOptions,
     TunnelData,
 )
-from optimizer.loads import candidates, close_enough, pair_patterns, price_mixed_loads
+from optimizer.loads import (
+    best_shift_pattern,
+    candidates,
+    close_enough,
+    pair_patterns,
+    price_mixed_loads,
+)
 from tests._planner_cases import dwell_row, one_line, table
 
 
@@ -274,3 +280,36 @@ def test_bad_plan_inputs_name_the_field():
             base.orders,
             base.dwell,
         )
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_shift_pattern_pricing_matches_brute_force(seed):
+    # Random oven-shift knapsacks: 1-3 settings with 1-3 loads each, a changeover
+    # between settings (first free); every batch-count combination is tried.
+    import random
+
+    rng = random.Random(seed)
+    items = {
+        f"s{j}": [
+            (rng.uniform(20, 90), rng.uniform(-1, 5), f"L{j}{i}") for i in range(rng.randint(1, 3))
+        ]
+        for j in range(rng.randint(1, 3))
+    }
+    avail = rng.uniform(60, 250)
+    co = rng.choice([0.0, 15.5, 40.0])
+    got = best_shift_pattern(items, avail, co)
+    flat = [(c, v, k, s) for s, lst in items.items() for c, v, k in lst]
+    # The search rounds minutes up to whole minutes (so its patterns always fit).
+    best = 0.0
+    ranges = [range(int(avail // math.ceil(c)) + 1) for c, _v, _k, _s in flat]
+    for combo in itertools.product(*ranges):
+        used = sum(math.ceil(c) * n for (c, _v, _k, _s), n in zip(flat, combo, strict=True))
+        nset = len({s for (_c, _v, _k, s), n in zip(flat, combo, strict=True) if n})
+        used += math.ceil(co) * max(0, nset - 1)
+        if used <= math.floor(avail):
+            best = max(best, sum(v * n for (_c, v, _k, _s), n in zip(flat, combo, strict=True)))
+    value = sum(v * got.get(k, 0) for _c, v, k, _s in flat)
+    assert value == pytest.approx(best, abs=1e-9)
+    exact = sum(c * got.get(k, 0) for c, _v, k, _s in flat)
+    nset = len({s for _c, _v, k, s in flat if got.get(k, 0)})
+    assert exact + co * max(0, nset - 1) <= avail + 1e-9

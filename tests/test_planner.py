@@ -226,3 +226,48 @@ def test_no_orders_for_a_product_means_it_is_not_made():
     )
     r = plan(inp)
     assert {x.product for x in r.runs} == {"A"}
+
+
+@pytest.mark.parametrize(
+    ("make", "expected"),
+    [
+        (lambda: one_line(n_shifts=2), 1600.0),
+        (lambda: one_line(products={"A": (10.0, 50.0, 0.1, {})}), 480.0),
+        (
+            lambda: one_line(
+                oven_changeover=60.0,
+                orders=[OrderData("A", min_kg=100.0), OrderData("B", min_kg=100.0)],
+                extra_rows=[dwell_row("B", "oven-1", "mild", "tunnel-1", "cold", "full", 50, 1)],
+                extra_products=("B",),
+            ),
+            700.0,
+        ),
+    ],
+)
+def test_pattern_formulation_on_hand_cases(make, expected):
+    # Same hand cases as test_model (800 kg per 480-min shift, 1 kg/min belt, a 60-min
+    # changeover costing a batch).
+    r = plan(make(), SolveOptions(formulation="patterns"))
+    assert r.status is SolveStatus.OPTIMAL
+    assert r.objective_value == pytest.approx(expected)
+    used = {(u.machine, u.shift): u.used_min for u in r.machine_use}
+    for b in r.batches:
+        assert b.kg <= b.batches * sum(c.kg_per_batch for c in b.contents) + 1e-6
+    assert all(v <= 480.0 + 1e-9 for v in used.values())
+    assert {s.machine for s in r.shadow_prices} == {"oven-1", "tunnel-1"}
+
+
+def test_pattern_formulation_is_honest_about_its_gap():
+    # Capped orders (A <= 350, B <= 450) need a 5+5 mixed batch for 800 kg. The pattern
+    # LP already reaches 800 by mixing "all A" and "all B" patterns, so pricing sees no
+    # better pattern and the MILP over the generated patterns stops at 750 kg: the
+    # result must say so through its gap against the LP bound, not claim optimality.
+    inp = one_line(
+        products={"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 50.0, 1.0, {})},
+        orders=[OrderData("A", max_kg=350.0), OrderData("B", max_kg=450.0)],
+    )
+    r = plan(inp, SolveOptions(formulation="patterns"))
+    assert r.status is SolveStatus.FEASIBLE_WITH_GAP
+    assert r.best_bound == pytest.approx(800.0, rel=1e-5)
+    assert 750.0 - 1e-6 <= r.objective_value <= r.best_bound
+    assert r.gap == pytest.approx((r.best_bound - r.objective_value) / r.objective_value, rel=1e-3)
