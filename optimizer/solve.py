@@ -31,6 +31,7 @@ LpSolutionIntegerFeasible``, which is reported as ``FEASIBLE_WITH_GAP``.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 import warnings
@@ -685,7 +686,11 @@ def _compact_solve(inputs: PlanInputs, cand: Candidates, options: SolveOptions, 
         rounds, cg_notes = _generate_columns(model, inputs, cand, options, first)
         notes.extend(cg_notes)
         solve_s += time.perf_counter() - tc
-    status, gap, bound, dt, msg = _staged_solve(model, first, options)
+    # Column generation counts against the time limit.
+    left = max(options.time_limit_s - solve_s, 0.2 * options.time_limit_s)
+    status, gap, bound, dt, msg = _staged_solve(
+        model, first, dataclasses.replace(options, time_limit_s=left)
+    )
     solve_s += dt
     used = first
     if status in (SolveStatus.ERROR, SolveStatus.UNBOUNDED) and options.fallback:
