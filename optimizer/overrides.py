@@ -16,6 +16,17 @@ A scenario file may extend another::
       - set: ovens.oven-2.settings.roast.air_temperature
         value: 185 degC
 
+A change may also append an item to a list (``add``), optionally starting
+from a copy of an existing item (``copy_of``, by name); the ``value`` mapping
+then holds the fields that differ from the copy, and must give a new
+``name``::
+
+      - add: ovens
+        copy_of: rack-oven-1
+        value: {name: rack-oven-3}
+      - add: tunnels.chill-tunnel.fed_by
+        value: rack-oven-3
+
 Changes apply in order, after the base file (itself possibly an extension)
 is resolved.
 """
@@ -35,6 +46,10 @@ class OverrideError(ValueError):
     """A change names a path that does not exist or is written wrongly."""
 
 
+CHANGE_OPS = ("set", "add")
+"""Operations a :class:`Change` may carry."""
+
+
 @dataclass(frozen=True)
 class Change:
     """One change: a dotted path and its new value.
@@ -44,11 +59,36 @@ class Change:
     path : str
         Dotted path, e.g. ``"tunnels.main.length"``.
     value : Any
-        New value, as it would be written in the scenario file.
+        New value, as it would be written in the scenario file. For ``add``:
+        the item appended (with ``copy_of``: the fields that differ from the
+        copy, a mapping).
+    op : str
+        ``"set"`` (replace the value at ``path``) or ``"add"`` (append
+        ``value`` to the list at ``path``).
+    copy_of : str or None
+        For ``add``: name of the item of that list to start from (deep copy).
     """
 
     path: str
     value: Any
+    op: str = "set"
+    copy_of: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.op not in CHANGE_OPS:
+            raise OverrideError(
+                f"{self.path}: change operation must be one of {', '.join(CHANGE_OPS)}, "
+                f"got {self.op!r}"
+            )
+        if self.copy_of is not None and self.op != "add":
+            raise OverrideError(f"{self.path}: copy_of is only accepted with 'add'")
+
+    def describe(self) -> str:
+        """One readable line: ``path=value`` or ``path += value``."""
+        if self.op == "add":
+            copy = f" (copy of {self.copy_of})" if self.copy_of is not None else ""
+            return f"{self.path} += {self.value}{copy}"
+        return f"{self.path}={self.value}"
 
 
 def parse_assignment(text: str) -> Change:
@@ -114,6 +154,9 @@ def apply_changes(raw: Mapping[str, Any], changes: Iterable[Change]) -> dict[str
     """
     out: dict[str, Any] = copy.deepcopy(dict(raw))
     for change in changes:
+        if change.op == "add":
+            _append(out, change)
+            continue
         parts = _segments(change.path)
         node: Any = out
         for depth, seg in enumerate(parts[:-1]):
@@ -128,6 +171,44 @@ def apply_changes(raw: Mapping[str, Any], changes: Iterable[Change]) -> dict[str
         else:
             raise OverrideError(f"{change.path}: cannot set a field inside a {type(node).__name__}")
     return out
+
+
+def _append(root: dict[str, Any], change: Change) -> None:
+    """Apply an ``add`` change to ``root`` in place."""
+    parts = _segments(change.path)
+    node: Any = root
+    for depth, seg in enumerate(parts):
+        _, node = _child(node, seg, ".".join(parts[: depth + 1]))
+    if not isinstance(node, list):
+        raise OverrideError(
+            f"{change.path}: 'add' needs a list here, found a {type(node).__name__}"
+        )
+    item = copy.deepcopy(change.value)
+    if change.copy_of is not None:
+        _, original = _child(node, str(change.copy_of), f"{change.path}.{change.copy_of}")
+        if not isinstance(original, Mapping):
+            raise OverrideError(f"{change.path}: copy_of needs items that are mappings")
+        if item is None:
+            item = {}
+        if not isinstance(item, Mapping):
+            raise OverrideError(
+                f"{change.path}: value: with copy_of, give a mapping of the fields that "
+                f"differ (at least a new name), got {item!r}"
+            )
+        merged = copy.deepcopy(dict(original))
+        merged.update(item)
+        item = merged
+        if str(item.get("name")) == str(change.copy_of):
+            raise OverrideError(
+                f"{change.path}: value.name: the copy of {change.copy_of!r} needs a new name"
+            )
+    if isinstance(item, Mapping) and "name" in item:
+        names = {str(x.get("name")) for x in node if isinstance(x, Mapping)}
+        if str(item["name"]) in names:
+            raise OverrideError(
+                f"{change.path}: an item named {item['name']!r} exists already; give a new name"
+            )
+    node.append(item)
 
 
 def _read_yaml(path: Path) -> dict[str, Any]:
@@ -157,12 +238,41 @@ def _changes_from(data: Any, source: Path) -> list[Change]:
         raise OverrideError(f"{source}: changes: must be a list of {{set: PATH, value: VALUE}}")
     out = []
     for i, item in enumerate(data):
-        if not isinstance(item, Mapping) or "set" not in item or "value" not in item:
-            raise OverrideError(
-                f"{source}: changes[{i}]: must be a mapping with keys 'set' and 'value'"
-            )
-        out.append(Change(str(item["set"]), item["value"]))
+        out.append(change_from_mapping(item, f"{source}: changes[{i}]"))
     return out
+
+
+def change_from_mapping(item: Any, where: str) -> Change:
+    """Read one change written as ``{set: PATH, value: V}`` or ``{add: PATH, value: V}``.
+
+    ``add`` also accepts ``copy_of: NAME``.
+
+    Raises
+    ------
+    OverrideError
+        Naming ``where`` and the accepted forms.
+    """
+    accepted = (
+        "must be a mapping with keys 'set' and 'value', or 'add' and 'value' "
+        "(and optionally 'copy_of')"
+    )
+    if not isinstance(item, Mapping) or ("set" in item) == ("add" in item):
+        raise OverrideError(f"{where}: {accepted}")
+    if "set" in item:
+        extra = sorted(set(map(str, item)) - {"set", "value"})
+        if extra or "value" not in item:
+            raise OverrideError(f"{where}: {accepted}")
+        return Change(str(item["set"]), item["value"])
+    extra = sorted(set(map(str, item)) - {"add", "value", "copy_of"})
+    if extra or ("value" not in item and "copy_of" not in item):
+        raise OverrideError(f"{where}: {accepted}")
+    copy_of = item.get("copy_of")
+    return Change(
+        str(item["add"]),
+        item.get("value"),
+        op="add",
+        copy_of=None if copy_of is None else str(copy_of),
+    )
 
 
 def load_raw(path: str | Path, extra: Iterable[Change] = ()) -> dict[str, Any]:

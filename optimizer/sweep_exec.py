@@ -17,7 +17,7 @@ import json
 import os
 import tempfile
 from collections.abc import Callable, Iterable, Mapping, Sequence
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import Executor, ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
 from enum import StrEnum
 from multiprocessing import get_context
@@ -62,7 +62,10 @@ class SweepPoint:
         """Stable hash of everything that decides this point's result."""
         payload = json.dumps(
             {
-                "changes": [(c.path, c.value) for c in self.changes],
+                "changes": [
+                    (c.path, c.value) if c.op == "set" else (c.op, c.path, c.value, c.copy_of)
+                    for c in self.changes
+                ],
                 "context": [list(kv) for kv in self.context],
             },
             sort_keys=True,
@@ -108,6 +111,31 @@ def _load_done(done_dir: Path, points: Iterable[SweepPoint]) -> dict[int, dict[s
     return done
 
 
+def done_indices(points: Iterable[SweepPoint], done_dir: str | Path | None) -> set[int]:
+    """Indices of the points already finished in ``done_dir`` (same index and key).
+
+    Parameters
+    ----------
+    points : iterable of SweepPoint
+        Points of the sweep.
+    done_dir : str or Path or None
+        The folder given to :func:`run_points` (``None``: nothing is done).
+    """
+    if done_dir is None:
+        return set()
+    folder = Path(done_dir)
+    return {p.index for p in points if _done_path(folder, p).exists()}
+
+
+def new_pool(workers: int | None = None) -> ProcessPoolExecutor:
+    """A local process pool as :func:`run_points` makes it (spawned processes).
+
+    Pass it to several :func:`run_points` calls as ``executor`` to start the
+    worker processes once; shut it down when finished.
+    """
+    return ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn"))
+
+
 def run_points(
     points: Sequence[SweepPoint],
     func: PointFunc,
@@ -117,6 +145,7 @@ def run_points(
     cluster: str | Any | None = None,
     done_dir: str | Path | None = None,
     on_done: Callable[[int, int], None] | None = None,
+    executor: Executor | None = None,
 ) -> list[dict[str, Any]]:
     """Evaluate ``func`` at every point and return the rows in point order.
 
@@ -137,6 +166,15 @@ def run_points(
         (same index and same key) are not evaluated again.
     on_done : callable, optional
         Called as ``on_done(finished, total)`` after each point (progress).
+    executor : concurrent.futures.Executor, optional
+        For ``"pool"``: a running pool to use (see :func:`new_pool`); it is
+        left running. Default: a pool of ``workers`` processes made and shut
+        down here.
+
+    Notes
+    -----
+    When a point raises or the run is interrupted (Ctrl-C), points not yet
+    started are cancelled; points already finished stay in ``done_dir``.
     """
     mode = ExecMode(mode)
     folder = Path(done_dir) if done_dir is not None else None
@@ -158,11 +196,19 @@ def run_points(
         for p in todo:
             finish(p, func(p))
     elif mode is ExecMode.POOL:
-        ctx = get_context("spawn")
-        with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
-            futures = {pool.submit(func, p): p for p in todo}
+        pool = executor if executor is not None else new_pool(workers)
+        futures = {pool.submit(func, p): p for p in todo}
+        try:
             for fut in as_completed(futures):
                 finish(futures[fut], fut.result())
+        except BaseException:
+            for fut in futures:
+                fut.cancel()
+            if executor is None:
+                pool.shutdown(wait=False, cancel_futures=True)
+            raise
+        if executor is None:
+            pool.shutdown(wait=True)
     else:
         _run_on_cluster(todo, func, cluster, finish)
     return [results[p.index] for p in points]
@@ -187,11 +233,16 @@ def _run_on_cluster(
         ) from None
     own = isinstance(cluster, str)
     client = Client(cluster) if own else cluster
+    futures: list[Any] = []
     try:
         futures = client.map(func, list(todo), pure=False)
         by_key = {f.key: p for f, p in zip(futures, todo, strict=True)}
         for fut in dask_completed(futures):
             finish(by_key[fut.key], fut.result())
+    except BaseException:
+        if futures:
+            client.cancel(futures)
+        raise
     finally:
         if own:
             client.close()
