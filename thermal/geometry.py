@@ -100,6 +100,7 @@ class Slab:
 
     @property
     def kind(self) -> str:
+        """Shape name: ``"slab"``."""
         return "slab"
 
     @property
@@ -123,6 +124,7 @@ class Slab:
 
     @property
     def directions(self) -> tuple[tuple[str, float], ...]:
+        """Product-solution factors ``(series shape, conduction length [m])``."""
         return (("slab", self.thickness / 2),)
 
     @property
@@ -132,9 +134,11 @@ class Slab:
 
     @property
     def smallest_half_dimension(self) -> float:
+        """Shortest conduction length [m] (half the thickness)."""
         return min(length for _, length in self.directions)
 
     def scaled(self, factor: float) -> Slab:
+        """Same shape with every dimension multiplied by ``factor`` [-]."""
         f = _factor(factor)
         return Slab(
             self.thickness * f,
@@ -160,6 +164,7 @@ class InfiniteCylinder:
 
     @property
     def kind(self) -> str:
+        """Shape name: ``"cylinder"``."""
         return "cylinder"
 
     @property
@@ -186,6 +191,7 @@ class InfiniteCylinder:
         return self.radius
 
     def scaled(self, factor: float) -> InfiniteCylinder:
+        """Same shape with every dimension multiplied by ``factor`` [-]."""
         return InfiniteCylinder(self.radius * _factor(factor))
 
 
@@ -206,6 +212,7 @@ class Sphere:
 
     @property
     def kind(self) -> str:
+        """Shape name: ``"sphere"``."""
         return "sphere"
 
     @property
@@ -230,6 +237,7 @@ class Sphere:
         return self.radius
 
     def scaled(self, factor: float) -> Sphere:
+        """Same shape with every dimension multiplied by ``factor`` [-]."""
         return Sphere(self.radius * _factor(factor))
 
 
@@ -254,6 +262,7 @@ class FiniteCylinder:
 
     @property
     def kind(self) -> str:
+        """Shape name: ``"finite_cylinder"``."""
         return "finite_cylinder"
 
     @property
@@ -277,6 +286,7 @@ class FiniteCylinder:
         return min(self.radius, self.length / 2)
 
     def scaled(self, factor: float) -> FiniteCylinder:
+        """Same shape with every dimension multiplied by ``factor`` [-]."""
         f = _factor(factor)
         return FiniteCylinder(self.radius * f, self.length * f)
 
@@ -305,6 +315,7 @@ class Block:
 
     @property
     def kind(self) -> str:
+        """Shape name: ``"block"``."""
         return "block"
 
     @property
@@ -329,6 +340,7 @@ class Block:
         return min(self.length, self.width, self.height) / 2
 
     def scaled(self, factor: float) -> Block:
+        """Same shape with every dimension multiplied by ``factor`` [-]."""
         f = _factor(factor)
         return Block(self.length * f, self.width * f, self.height * f)
 
