@@ -469,49 +469,66 @@ class _Tables:
         self.slope_flat = np.concatenate([self.slope, self.slope[:, -1:]], axis=1).ravel()
         self.idx_flat = idx.ravel()
 
-    def ids(self, tid: NDArray[np.intp]) -> NDArray[np.intp] | None:
-        """Table ids for the hot path (None when one table serves all)."""
-        return None if self.single else tid
+    def ids(self, tid: NDArray[np.intp]) -> _Members | None:
+        """Per-member table offsets for the hot path (None when one table serves all)."""
+        if self.single:
+            return None
+        return _Members(
+            base=tid * self.n,
+            base_q=tid * self.nq,
+            h0=self.h0[tid],
+            inv_dh=1.0 / self.dh[tid],
+        )
 
-    def _index(self, t, tid):
+    def _index(self, t, ids):
         x = (t - self.t0) * (1.0 / self.dt)
         j = np.minimum(np.maximum(x, 0.0), self.n - 2).astype(np.intp)
         w = x - j
-        return j, w, (j if tid is None else tid * self.n + j)
+        return w, (j if ids is None else ids.base + j)
 
-    def slope_conductivity(self, t, tid):
-        """dH/dT [J/kg K] and k [W/m K] at t (tid broadcastable to t, or None)."""
-        _, w, flat = self._index(t, tid)
+    def slope_conductivity(self, t, ids):
+        """dH/dT [J/kg K] and k [W/m K] at t."""
+        w, flat = self._index(t, ids)
         k_lo = self.k_flat[flat]
         return self.slope_flat[flat], k_lo + (self.k_flat[flat + 1] - k_lo) * w
 
-    def enthalpy(self, t, tid):
-        _, w, flat = self._index(t, tid)
+    def enthalpy(self, t, ids):
+        w, flat = self._index(t, ids)
         return self.h_flat[flat] + self.slope_flat[flat] * (w * self.dt)
 
-    def conductivity(self, t, tid):
-        _, w, flat = self._index(t, tid)
+    def conductivity(self, t, ids):
+        w, flat = self._index(t, ids)
         k_lo = self.k_flat[flat]
         return k_lo + (self.k_flat[flat + 1] - k_lo) * w
 
-    def temperature(self, h, tid):
+    def temperature(self, h, ids):
         """Exact inverse of the piecewise-linear H(T) table."""
-        if tid is None:
+        if ids is None:
             x = (h - self.h0[0]) * (1.0 / self.dh[0])
             base = 0
         else:
-            x = (h - self.h0[tid]) / self.dh[tid]
-            base = tid * self.n
+            x = (h - ids.h0) * ids.inv_dh
+            base = ids.base
         q = np.minimum(np.maximum(x, 0.0), self.nq - 1).astype(np.intp)
-        j = self.idx_flat[q if tid is None else tid * self.nq + q]
-        flat = base + j
+        flat = self.idx_flat[q if ids is None else ids.base_q + q] + base
+        last = base + (self.n - 2)
         while True:
-            move = (j < self.n - 2) & (h >= self.h_flat[flat + 1])
+            move = (flat < last) & (h >= self.h_flat[flat + 1])
             if not move.any():
                 break
-            j = j + move
             flat = flat + move
-        return self.t0 + self.dt * j + (h - self.h_flat[flat]) / self.slope_flat[flat]
+        t0 = self.t0 + self.dt * (flat - base)
+        return t0 + (h - self.h_flat[flat]) / self.slope_flat[flat]
+
+
+@dataclass(frozen=True)
+class _Members:
+    """Offsets of each member's table rows, shaped to broadcast with the state."""
+
+    base: NDArray[np.intp]
+    base_q: NDArray[np.intp]
+    h0: NDArray[np.float64]
+    inv_dh: NDArray[np.float64]
 
 
 # ---------------------------------------------------------------------------
