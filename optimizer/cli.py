@@ -153,8 +153,9 @@ class Ui:
 
     def __post_init__(self) -> None:
         tty = sys.stdout.isatty()
+        # without a terminal (a pipe, a file) print wide rather than cut table cells
         self.console = Console(
-            file=sys.stdout, highlight=False, width=None if tty else 120, soft_wrap=False
+            file=sys.stdout, highlight=False, width=None if tty else 200, soft_wrap=False
         )
         self.err = Console(file=sys.stderr, highlight=False, width=200, soft_wrap=True)
         self.show_progress = tty and not self.quiet and not self.json_mode
@@ -461,13 +462,20 @@ def solve_options(args: argparse.Namespace, **overrides: Any) -> Any:
     return SolveOptions(**kwargs)
 
 
+def _duration(minutes: float) -> str:
+    """A hold or window in words: seconds below a minute, else minutes [min → text]."""
+    if minutes < 1.0:
+        return f"{minutes * 60:.0f} s"
+    return f"{minutes:g} min"
+
+
 def _rule_text(rule: Any) -> str:
     """A cook, chill or freeze rule in words."""
     kind = getattr(rule, "kind", "")
     parts: list[str] = []
     if kind == "cook":
         for h in rule.holds:
-            hold = f" for {h.hold:g} min" if h.hold else ""
+            hold = f" for {_duration(h.hold)}" if h.hold else ""
             parts.append(f"core ≥ {h.core_temperature:g} °C{hold}")
         text = " or ".join(parts)
         if rule.lethality is not None:
@@ -480,7 +488,7 @@ def _rule_text(rule: Any) -> str:
         return text
     if kind == "chill":
         for step in rule.steps:
-            parts.append(f"{step.start:g} → {step.end:g} °C within {step.within:g} min")
+            parts.append(f"{step.start:g} → {step.end:g} °C within {_duration(step.within)}")
         if rule.exit_core_temperature is not None:
             parts.append(f"core ≤ {rule.exit_core_temperature:g} °C at tunnel exit")
         return "; ".join(parts)
@@ -603,15 +611,21 @@ def _rule_marks(
     from optimizer.report import RuleMark
 
     marks = []
-    for h in cook.holds:
-        hold = f", {h.hold:g} min hold" if h.hold else ""
+    holds = sorted(cook.holds, key=lambda h: h.core_temperature)
+    if holds:
+        lowest = holds[0]
+        if len(holds) > 1:
+            text = f"cook: core ≥ {lowest.core_temperature:g} °C (lowest of {len(holds)} options)"
+        else:
+            hold = f" for {_duration(lowest.hold)}" if lowest.hold else ""
+            text = f"cook: core ≥ {lowest.core_temperature:g} °C{hold}"
         marks.append(
             RuleMark(
-                f"cook: core ≥ {h.core_temperature:g} °C{hold}",
-                h.core_temperature,
+                text,
+                lowest.core_temperature,
                 0.0,
                 oven_end,
-                _first_crossing(times_min, core, h.core_temperature, below=False),
+                _first_crossing(times_min, core, lowest.core_temperature, below=False),
             )
         )
     kind = getattr(chill, "kind", "")
@@ -622,7 +636,7 @@ def _rule_marks(
                 opens = oven_end
             marks.append(
                 RuleMark(
-                    f"core ≤ {step.end:g} °C within {step.within:g} min of {step.start:g} °C",
+                    f"core ≤ {step.end:g} °C within {_duration(step.within)} of {step.start:g} °C",
                     step.end,
                     opens,
                     opens + step.within,
@@ -747,7 +761,9 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
             f"{name}, largest piece: {oven_name} at {oset_name} for {cook_min:.1f} min, "
             f"{tunnel_name} at {tset_name}, loading {loading_name}, belt "
             f"{speed[key]:.2f} m/min ({residence_min:.1f} min in the tunnel). "
-            f"Core at tunnel exit {float(hist.core[-1]):.1f} °C."
+            f"Core at tunnel exit {float(hist.core[-1]):.1f} °C. "
+            f"Cook rule: {_rule_text(cook)} ({cook.source}). "
+            f"Chill rule: {_rule_text(chill)} ({chill.source})."
         )
         if cook.lethality is not None:
             leth = cook.lethality
@@ -1033,14 +1049,16 @@ def plan_summary(run: PlanRun, ui: Ui) -> None:
 
 def rich_table(table: pd.DataFrame, *, title: str) -> Table:
     """Any table as a rich table (numbers right-aligned, rounded for reading)."""
-    from optimizer.report import format_cell
+    from optimizer.report import COLUMN_LABELS, column_decimals, format_cell
 
     out = Table(title=title, title_justify="left", header_style="bold")
     numeric = {c: pd.api.types.is_numeric_dtype(table[c]) for c in table.columns}
+    decimals = [column_decimals(table[c]) if numeric[c] else 2 for c in table.columns]
     for c in table.columns:
-        out.add_column(str(c), justify="right" if numeric[c] else "left")
+        label = COLUMN_LABELS.get(str(c), str(c).replace("_", " "))
+        out.add_column(label, justify="right" if numeric[c] else "left")
     for row in table.itertuples(index=False, name=None):
-        out.add_row(*(format_cell(v, 1) for v in row))
+        out.add_row(*(format_cell(v, d) for v, d in zip(row, decimals, strict=True)))
     return out
 
 
@@ -1236,13 +1254,15 @@ def max_mix_capacity(
 ) -> CapacityResult:
     """Most kg with fixed mix proportions, by bisection on the total.
 
-    The planner is asked for the most kg with the mix free (an upper end
-    ``U``); then each step fixes every product's kg to its share of a trial
-    total ``X`` (order minimum = maximum = share × X) and asks whether a plan
-    exists. Feasibility is monotone in ``X`` because batches may be loaded
-    below their pattern and tunnel minutes fall with kg, so bisection on
-    ``[0, U]`` converges to the largest feasible total within ``tolerance``
-    (relative). A final solve at that total gives utilisation and shadow
+    The planner is asked for the most kg of the mix's products with the mix
+    free (an upper end ``U``); then each step fixes every product's kg to its
+    share of a trial total ``X`` (order minimum = maximum = share × X) and
+    asks whether a plan exists. Making less of a product never makes a plan
+    infeasible (batches may be loaded below their pattern, tunnel minutes
+    fall with kg), so feasibility is monotone in ``X``, and the free-mix plan
+    itself shows ``X = min_p kg_p / share_p`` is feasible (a lower end).
+    Bisection between the two converges to the largest feasible total within
+    ``tolerance`` (relative). A final solve at that total gives utilisation and shadow
     prices; one just above it, with the elastic diagnosis, names what runs
     out first.
 
@@ -1277,6 +1297,12 @@ def max_mix_capacity(
     upper = free.total_kg if free.status.has_plan else 0.0
     low, high = 0.0, upper
     if upper > 0:
+        # the free-mix plan, cut down to the mix, is a plan: a lower end for the search
+        made = {p: 0.0 for p in shares}
+        for r in free.runs:
+            if r.product in made:
+                made[r.product] += r.kg
+        low = min(made[p] / share for p, share in shares.items()) * (1.0 - 1e-9)
         if plan(_mix_inputs(inputs, shares, upper), quick).status.has_plan:
             low = upper
         solves += 1
@@ -1311,6 +1337,39 @@ def max_mix_capacity(
         plan=final,
         limit=limit,
     )
+
+
+FULL_USE = 0.99
+"""Utilisation [-] from which a machine counts as full in a shift."""
+
+
+def full_machines(result: Any) -> list[str]:
+    """Machines whose time runs out in a plan: one line each, fullest first.
+
+    At a capacity limit the total is fixed by the mix, so the shadow prices
+    of machine time say little; what limits the total is the machines used
+    (nearly) to the last minute. A machine is listed when its utilisation is
+    at least :data:`FULL_USE` in some shift.
+    """
+    shifts: dict[str, list[tuple[str, float]]] = {}
+    kinds: dict[str, str] = {}
+    for u in result.machine_use:
+        kinds[u.machine] = u.kind
+        shifts.setdefault(u.machine, []).append((u.shift, u.utilisation))
+    rows = []
+    for machine, uses in shifts.items():
+        full = [s for s, x in uses if x >= FULL_USE]
+        if full:
+            mean = sum(x for _, x in uses) / len(uses)
+            where = "every shift" if len(full) == len(uses) else ", ".join(full)
+            rows.append(
+                (
+                    mean,
+                    f"{kinds[machine]} {machine}: full in {where} "
+                    f"(mean {100 * mean:.0f} % of available minutes)",
+                )
+            )
+    return [text for _, text in sorted(rows, key=lambda r: -r[0])]
 
 
 def capacity_tables(cap: CapacityResult) -> dict[str, pd.DataFrame]:
@@ -1360,7 +1419,7 @@ def capacity_json(path: str, cap: CapacityResult, tables: Mapping[str, pd.DataFr
         "shifts_per_week": cap.shifts_per_week,
         "free_mix_kg": cap.free_mix_kg,
         "solves": cap.solves,
-        "bottleneck": _bottleneck_json(cap.plan),
+        "full_machines": full_machines(cap.plan),
         "limits": [s.message for s in cap.limit.shortfalls] if cap.limit is not None else [],
         "files": [str(p) for p in files],
         "tables": {name: export.table_records(t) for name, t in tables.items()},
@@ -1370,7 +1429,6 @@ def capacity_json(path: str, cap: CapacityResult, tables: Mapping[str, pd.DataFr
 def cmd_capacity(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace capacity SCENARIO``: most kg per hour and week for a fixed mix."""
     from optimizer.adapter import plan_inputs
-    from optimizer.results import bottleneck
 
     scenario = load(args.scenario, args)
     names = [p.name for p in scenario.products]
@@ -1400,12 +1458,8 @@ def cmd_capacity(args: argparse.Namespace, ui: Ui) -> int:
     data["files"] = [str(p) for p in written]
     ui.emit_json(data)
     ui.say(rich_table(tables["capacity_mix"], title=f"Mix ({source})"))
-    bn = bottleneck(cap.plan)
-    if bn is not None:
-        ui.say(
-            f"Limited by {bn.kind} {bn.machine}: mean utilisation {100 * bn.utilisation:.0f} % "
-            f"({bn.reason})"
-        )
+    for line in full_machines(cap.plan):
+        ui.say(f"At capacity: {line}")
     if cap.limit is not None:
         ui.say("Just above this total the plan runs out of:")
         for s in cap.limit.shortfalls:
@@ -1429,7 +1483,6 @@ def capacity_report(
 ) -> str:
     """The HTML page of a capacity run."""
     from optimizer.report import SAFETY_CAUTION, HtmlReport, utilisation_figure
-    from optimizer.results import bottleneck
 
     plant = getattr(scenario, "plant", Path(path).stem)
     report = HtmlReport(
@@ -1438,7 +1491,6 @@ def capacity_report(
     )
     report.caution("Food safety", SAFETY_CAUTION)
     report.section("Capacity")
-    bn = bottleneck(cap.plan)
     pairs: list[tuple[str, Any]] = [
         ("most kg per hour", f"{cap.kg_per_hour:,.0f} kg/h"),
         ("most kg per week", f"{cap.kg_per_week:,.0f} kg ({cap.shifts_per_week:g} shifts)"),
@@ -1446,8 +1498,8 @@ def capacity_report(
         ("with the mix free", f"{cap.free_mix_kg:,.0f} kg"),
         ("mix from", cap.mix_source),
     ]
-    if bn is not None:
-        pairs.append(("limited by", f"{bn.kind} {bn.machine} ({100 * bn.utilisation:.0f} % used)"))
+    for line in full_machines(cap.plan):
+        pairs.append(("at capacity", line))
     report.key_values(pairs)
     report.paragraph(
         "Method: the most kg with the product proportions fixed, found by bisection on the "

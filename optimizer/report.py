@@ -45,6 +45,7 @@ __all__ = [
     "RunInfo",
     "Stage",
     "TimelineBar",
+    "column_decimals",
     "figure_png",
     "format_cell",
     "plan_report",
@@ -152,8 +153,8 @@ def _is_missing(value: Any) -> bool:
     return isinstance(value, float | np.floating) and math.isnan(float(value))
 
 
-def _column_decimals(values: pd.Series) -> int:
-    """Decimals to show for a float column: fewer for large magnitudes."""
+def column_decimals(values: pd.Series) -> int:
+    """Decimals to show for a numeric column: none for whole numbers, fewer for large ones."""
     numbers = pd.to_numeric(values, errors="coerce").astype(float)
     finite = numbers[np.isfinite(numbers)]
     if finite.empty:
@@ -330,6 +331,13 @@ class CurveSet:
 def temperature_figure(curves: CurveSet) -> Figure:
     """Core and surface temperature against time, with stages and rules drawn.
 
+    Stages are separated by thin vertical lines and named at the top (names
+    of short stages are turned upright); each stage's air temperature is a
+    dotted line. Each rule is a dashed line at its target over its window,
+    with a dot where the core reaches the target; a window that ends within
+    the plotted time gets a vertical dotted line, and one that ends far
+    beyond it is named in its label instead of stretching the time axis.
+
     Parameters
     ----------
     curves : CurveSet
@@ -340,16 +348,22 @@ def temperature_figure(curves: CurveSet) -> Figure:
     matplotlib.figure.Figure
         The plot (not yet rendered).
     """
-    fig = Figure(figsize=(7.4, 3.6))
+    fig = Figure(figsize=(7.4, 3.8))
     ax = fig.add_subplot(1, 1, 1)
     _style_axes(ax)
     t = np.asarray(curves.time_min, dtype=float)
     core = np.asarray(curves.core, dtype=float)
     surface = np.asarray(curves.surface, dtype=float)
+    t0 = float(t[0]) if t.size else 0.0
+    t_hist = float(t[-1]) if t.size else 1.0
+    # show windows that end soon after the history; name the others in their label
+    t_end = t_hist
+    for rule in curves.rules:
+        if rule.deadline is not None and rule.deadline <= 1.5 * t_hist:
+            t_end = max(t_end, rule.deadline)
+    t_end *= 1.03
     air_labelled = False
     for i, stage in enumerate(curves.stages):
-        if i % 2 == 1:
-            ax.axvspan(stage.start, stage.end, color="#f1f3f4", zorder=0, linewidth=0)
         if stage.air_temperature is not None:
             ax.plot(
                 [stage.start, stage.end],
@@ -374,12 +388,10 @@ def temperature_figure(curves: CurveSet) -> Figure:
             zorder=3,
         )
     ax.plot(t, core, color=CORE_COLOUR, linewidth=2.2, label="core", zorder=4)
-    t_end = float(t[-1]) if t.size else 1.0
-    deadlines = [r.deadline for r in curves.rules if r.deadline is not None]
-    t_end = max([t_end, *deadlines])
     for rule in curves.rules:
-        x0 = rule.start if rule.start is not None else (float(t[0]) if t.size else 0.0)
-        x1 = rule.deadline if rule.deadline is not None else t_end
+        x0 = rule.start if rule.start is not None else t0
+        inside = rule.deadline is not None and rule.deadline <= t_end
+        x1 = rule.deadline if inside else t_end
         ax.plot(
             [x0, x1],
             [rule.temperature] * 2,
@@ -388,41 +400,60 @@ def temperature_figure(curves: CurveSet) -> Figure:
             linestyle="--",
             zorder=2,
         )
-        if rule.deadline is not None:
+        label = rule.label
+        if rule.deadline is not None and inside:
             ax.axvline(rule.deadline, color=RULE_COLOUR, linewidth=1.0, linestyle=":", zorder=2)
-            ax.axvspan(x0, rule.deadline, color=RULE_COLOUR, alpha=0.05, zorder=0, linewidth=0)
+        elif rule.deadline is not None:
+            label = f"{label} (window ends at {rule.deadline:.0f} min)"
         if rule.met_at is not None and math.isfinite(rule.met_at):
             ax.plot(
                 [rule.met_at], [rule.temperature], marker="o", color=RULE_COLOUR, ms=4, zorder=5
             )
         ax.annotate(
-            rule.label,
-            xy=(x1, rule.temperature),
-            xytext=(-3, 3),
+            label,
+            xy=(x0, rule.temperature),
+            xytext=(3, 3),
             textcoords="offset points",
-            ha="right",
+            ha="left",
             va="bottom",
             fontsize=7.5,
             color=RULE_COLOUR,
+            zorder=6,
         )
-    ax.set_xlim(float(t[0]) if t.size else 0.0, t_end)
+    ax.set_xlim(t0, t_end)
     low, high = ax.get_ylim()
+    span = max(t_end - t0, 1e-9)
     for stage in curves.stages:
-        ax.text(
-            (stage.start + stage.end) / 2,
-            high,
-            stage.name,
-            ha="center",
-            va="bottom",
-            fontsize=7.5,
-            color=MUTED,
-            clip_on=False,
-        )
+        width = min(stage.end, t_end) - max(stage.start, t0)
+        if width <= 0:
+            continue
+        if width > 0.09 * span:
+            ax.text(
+                (stage.start + min(stage.end, t_end)) / 2,
+                high,
+                stage.name,
+                ha="center",
+                va="bottom",
+                fontsize=7.5,
+                color=MUTED,
+                clip_on=False,
+            )
+        else:
+            ax.text(
+                (stage.start + stage.end) / 2,
+                high - 0.02 * (high - low),
+                stage.name,
+                ha="center",
+                va="top",
+                rotation=90,
+                fontsize=6.5,
+                color=MUTED,
+            )
     ax.set_ylim(low, high)
     ax.set_xlabel("time from oven loading [min]", fontsize=9, color=INK)
     ax.set_ylabel("temperature [°C]", fontsize=9, color=INK)
     ax.set_title(curves.title, fontsize=10, color=INK, loc="left", pad=16)
-    ax.legend(fontsize=8, frameon=False, loc="center right")
+    ax.legend(fontsize=8, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     fig.tight_layout()
     return fig
 
@@ -703,13 +734,14 @@ class HtmlReport:
             for c in frame.columns
         }
         decimals = {
-            c: _column_decimals(frame[c])
+            c: column_decimals(frame[c])
             for c in frame.columns
             if numeric[c] and pd.api.types.is_float_dtype(frame[c])
         }
+        num_class = ' class="num"'
         head = "".join(
             f'<th data-column="{html.escape(col, quote=True)}"'
-            f"{' class=num' if numeric[c] else ''}>"
+            f"{num_class if numeric[c] else ''}>"
             f"{html.escape(labels.get(col, col))}</th>"
             for c, col in zip(frame.columns, columns, strict=True)
         )
