@@ -7,6 +7,15 @@ Subcommands
 ``dwell SCENARIO``
     The dwell table: every product at every air setting, minutes required,
     fastest belt speed, and why a setting is ruled out.
+``plan SCENARIO``
+    The shift plan: batches, settings, belt speeds and loading, with the
+    bottleneck, shadow prices and an HTML report.
+``capacity SCENARIO``
+    Most kg per hour and per week for a fixed product mix, and what limits it.
+``compare A B ...``
+    Several scenarios planned and put side by side.
+``sweep STUDY``
+    What-if study (:mod:`optimizer.sweep`): one plan per point, purchases priced.
 ``schema``
     JSON Schema of scenario files, for editors that check YAML/JSON.
 
@@ -1727,6 +1736,7 @@ examples:
   corepace plan configs/demo.yaml --out reports/demo
   corepace capacity configs/demo.yaml --mix pork-sausage=2,ham-log=1
   corepace compare configs/demo.yaml other.yaml
+  corepace sweep study.yaml --out reports/what-if
   corepace schema > scenario.schema.json
 
 every command: --help for its options; --quiet, --json; --out DIR where files are written.
@@ -1921,6 +1931,10 @@ def build_parser() -> argparse.ArgumentParser:
     _common(p)
     _cache_options(p)
     p.set_defaults(func=cmd_compare)
+
+    from optimizer.sweep import add_sweep_parser
+
+    add_sweep_parser(sub)
 
     p = sub.add_parser(
         "schema",

@@ -389,6 +389,13 @@ def test_bad_options_are_exit_2(tmp_path, capsys):
     assert not (tmp_path / "o").exists()
 
 
+def test_missing_study_file_is_exit_2(capsys, tmp_path):
+    code, _, err = run(capsys, "sweep", tmp_path / "absent.yaml", "--out", tmp_path / "o")
+    assert code == EXIT_BAD_INPUT
+    assert err.strip().splitlines() == [f"{tmp_path / 'absent.yaml'}: no such study file"]
+    assert not (tmp_path / "o").exists()
+
+
 def test_missing_scenario_file(capsys, tmp_path):
     code, _, err = run(capsys, "dwell", tmp_path / "absent.yaml", "--out", tmp_path / "o")
     assert code == EXIT_BAD_INPUT
@@ -524,10 +531,10 @@ def test_compare_two_scenarios(tmp_path, cache, capsys, demo_plan, plant):
 def test_help_lists_every_command_with_examples(capsys):
     code, out, _ = run(capsys, "--help")
     assert code == EXIT_OK
-    for command in ("validate", "dwell", "plan", "capacity", "compare", "schema"):
+    for command in ("validate", "dwell", "plan", "capacity", "compare", "sweep", "schema"):
         assert command in out
     assert "examples:" in out and "exit codes" in out
-    for command in ("plan", "capacity", "compare", "dwell"):
+    for command in ("plan", "capacity", "compare", "dwell", "sweep"):
         code, text, _ = run(capsys, command, "--help")
         assert code == EXIT_OK
         assert "examples:" in text
