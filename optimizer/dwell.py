@@ -155,23 +155,39 @@ Progress = Callable[..., None]
 class SolverOptions:
     """Numerical options of the dwell computation (part of every cache key).
 
+    The defaults are chosen for speed where accuracy allows: on the demo
+    products (slab, cylinder, finite cylinder, block) they change cook and
+    chill minutes by 0.05-0.5 % against the physics layer's own finer defaults
+    (24/14/10 cells, 40 steps), well inside a 10 % time margin; pass finer
+    options for a final check.
+
     Parameters
     ----------
-    n_cells : int or None
-        Finite-volume cells per direction, centre to surface; None = the
-        physics layer's default for the shape (:data:`thermal.process.DEFAULT_CELLS`).
+    cells_1d, cells_2d, cells_3d : int
+        Finite-volume cells per direction, centre to surface, for shapes with
+        one direction (slab, cylinder, sphere), two (finite cylinder) and
+        three (block) [-].
     steps : int
-        Time steps over a run (:data:`thermal.process.DEFAULT_STEPS`).
+        Time steps over a run [-].
+    tolerance : float
+        Relative width to which a tunnel residence is bracketed [-].
     max_dwell_min : float
         Longest oven dwell considered [min].
     max_residence_min : float
         Longest tunnel residence considered [min].
     """
 
-    n_cells: int | None = None
-    steps: int = 300
+    cells_1d: int = 10
+    cells_2d: int = 6
+    cells_3d: int = 5
+    steps: int = 20
+    tolerance: float = 5e-3
     max_dwell_min: float = 24 * 60.0
     max_residence_min: float = 24 * 60.0
+
+    def cells(self, n_directions: int) -> int:
+        """Cells per direction for a shape with ``n_directions`` directions [-]."""
+        return {1: self.cells_1d, 2: self.cells_2d}.get(n_directions, self.cells_3d)
 
 
 # ------------------------------------------------------------------ scenario → thermal
@@ -505,7 +521,7 @@ def _compute_cook(
                 product.initial_temperature,
                 margin=process.Margin(relative=margin.time_fraction),
                 max_dwell=minutes_to_seconds(options.max_dwell_min),
-                n_cells=options.n_cells,
+                n_cells=options.cells(len(piece.geometry.directions)),
                 steps=options.steps,
             )
         except process.InfeasibleRuleError as exc:
@@ -545,7 +561,13 @@ def _compute_chill(
     factor: float,
     options: SolverOptions,
 ) -> dict[str, Any]:
-    """Compute one chill cell from a feasible cook cell (no cache)."""
+    """Compute one chill cell from a feasible cook cell (no cache).
+
+    The residence is searched with the shortest wait before the belt (the
+    transfer duration: hottest entry); when the hot-hold limit is longer, one
+    more run at that residence with the longest wait checks the cooling
+    windows, which a long wait in room air can break.
+    """
     from thermal import numeric, process
 
     margin = scenario.safety_margin
@@ -557,35 +579,24 @@ def _compute_chill(
         None if prof["density"] is None else np.asarray(prof["density"], dtype=float),
     )
     zones = tunnel_zones(tunnel, setting, factor)
-    worst: dict[str, Any] | None = None
-    notes: list[str] = []
-    for wait in _hold_waits(tunnel):
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            try:
-                res = process.required_chill(
-                    piece,
-                    start,
-                    _transfer(tunnel.transfer, wait),
-                    zones,
-                    rule,
-                    margin=process.Margin(relative=margin.time_fraction),
-                    max_residence=minutes_to_seconds(options.max_residence_min),
-                    n_cells=None,
-                    steps=options.steps,
-                )
-            except process.InfeasibleRuleError as exc:
-                when = f" after a {wait:g} min wait before the belt" if wait else ""
-                return {
-                    "feasible": False,
-                    "minutes": math.nan,
-                    "binding": exc.clause,
-                    "reason": f"chill: {exc.reason}{when}",
-                    "method": "numeric",
-                    "heat_out_kj_per_kg": math.nan,
-                    "notes": notes + _notes(caught),
-                }
-        notes += [n for n in _notes(caught) if n not in notes]
+    waits = _hold_waits(tunnel)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            res = process.required_chill(
+                piece,
+                start,
+                _transfer(tunnel.transfer, waits[0]),
+                zones,
+                rule,
+                margin=process.Margin(relative=margin.time_fraction),
+                max_residence=minutes_to_seconds(options.max_residence_min),
+                steps=options.steps,
+                tolerance=options.tolerance,
+            )
+        except process.InfeasibleRuleError as exc:
+            when = f" (after a {waits[0]:g} min wait before the belt)" if waits[0] else ""
+            return _ruled_out_chill(exc.clause, f"chill: {exc.reason}{when}", _notes(caught))
         cell = {
             "feasible": True,
             "minutes": seconds_to_minutes(res.residence),
@@ -594,13 +605,40 @@ def _compute_chill(
             "reason": "",
             "method": res.method,
             "heat_out_kj_per_kg": res.heat_out / 1000.0,
-            "wait_min": wait,
         }
-        if worst is None or cell["minutes"] > worst["minutes"]:
-            worst = cell
-    assert worst is not None
-    worst["notes"] = notes
-    return worst
+        if len(waits) > 1:
+            hist, _ = process.run_stages(
+                piece,
+                start,
+                None,
+                0.0,
+                _transfer(tunnel.transfer, waits[-1]),
+                zones,
+                res.residence,
+                steps=options.steps,
+            )
+            verdict = rule.check(hist.times, hist.core)
+            if not verdict.met:
+                return _ruled_out_chill(
+                    verdict.binding,
+                    f"chill: {verdict.reason} when a batch waits the full hot-hold limit "
+                    f"({waits[-1]:g} min) before the belt",
+                    _notes(caught),
+                )
+    cell["notes"] = _notes(caught)
+    return cell
+
+
+def _ruled_out_chill(binding: str, reason: str, notes: list[str]) -> dict[str, Any]:
+    return {
+        "feasible": False,
+        "minutes": math.nan,
+        "binding": binding,
+        "reason": reason,
+        "method": "numeric",
+        "heat_out_kj_per_kg": math.nan,
+        "notes": notes,
+    }
 
 
 # ------------------------------------------------------------------------ the table
@@ -631,12 +669,70 @@ def _cells(scenario: Scenario) -> list[tuple[Product, Oven, OvenSetting, Tunnel,
     return out
 
 
+_NOT_COMPUTED = {
+    "feasible": False,
+    "minutes": math.nan,
+    "binding": "",
+    "reason": "not computed: the cook is ruled out",
+    "method": "",
+    "heat_out_kj_per_kg": math.nan,
+    "notes": [],
+}
+
+
+@dataclass(frozen=True)
+class _Task:
+    """One cook cell and the distinct chill cells that start from its exit state."""
+
+    product: str
+    oven: str
+    setting: str
+    cook_key: str
+    chills: tuple[tuple[str, str, str, float], ...]  # (key, tunnel, tunnel setting, factor)
+
+
+def _run_task(
+    scenario: Scenario, task: _Task, cache: Path | None, options: SolverOptions
+) -> tuple[dict[str, Any], dict[str, dict[str, Any]], int]:
+    """Compute (or read) one task; returns (cook, {chill key: chill}, cells computed)."""
+    product = scenario.product(task.product)
+    setting = next(st for st in scenario.oven(task.oven).settings if st.name == task.setting)
+    computed = 0
+    name = f"cook-{task.cook_key}.json"
+    cook = _read(cache, name)
+    if cook is None:
+        cook = _compute_cook(scenario, product, setting, options)
+        _write(cache, name, cook)
+        computed += 1
+    chills: dict[str, dict[str, Any]] = {}
+    for key, tunnel_name, tset_name, factor in task.chills:
+        if not cook["feasible"]:
+            chills[key] = _NOT_COMPUTED
+            continue
+        name = f"chill-{key}.json"
+        chill = _read(cache, name)
+        if chill is None:
+            tunnel = scenario.tunnel(tunnel_name)
+            tset = next(st for st in tunnel.settings if st.name == tset_name)
+            chill = _compute_chill(scenario, product, cook, tunnel, tset, factor, options)
+            _write(cache, name, chill)
+            computed += 1
+        chills[key] = chill
+    return cook, chills, computed
+
+
+def _default_workers(n_tasks: int) -> int:
+    cpus = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    return max(1, min(cpus or 1, n_tasks)) if n_tasks >= 4 else 1
+
+
 def build_dwell_table(
     scenario: Scenario,
     *,
     cache_dir: str | Path | None = ".corepace-cache",
     progress: Progress | None = None,
     options: SolverOptions | None = None,
+    workers: int | None = None,
 ) -> pd.DataFrame:
     """Build the dwell table of a scenario (or read it from the cache).
 
@@ -648,9 +744,14 @@ def build_dwell_table(
         Directory of the on-disk cache; created when first written. ``None``
         computes everything and writes nothing.
     progress : callable, optional
-        ``progress(done, total, text)`` after each cell computed or read.
+        ``progress(done, total, text)`` after each cook cell with its chill
+        cells (``done`` and ``total`` count cells).
     options : SolverOptions, optional
         Numerical options (part of every cache key).
+    workers : int, optional
+        Processes computing cells in parallel; default: the CPUs available
+        when there are at least four cook cells to compute, else 1. Results do
+        not depend on it.
 
     Returns
     -------
@@ -672,69 +773,66 @@ def build_dwell_table(
 
     cook_keys: dict[tuple[str, str, str], str] = {}
     chill_keys: dict[tuple[str, ...], str] = {}
+    chills_of: dict[tuple[str, str, str], dict[str, tuple[str, str, str, float]]] = {}
     for product, oven, oset, tunnel, tset, loading in cells:
         ck = (product.name, oven.name, oset.name)
         if ck not in cook_keys:
             cook_keys[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
+            chills_of[ck] = {}
         factor = _loading_factor(loading)
-        key = (*ck, tunnel.name, tset.name, loading.name)
-        chill_keys[key] = dwell_cache_key(
+        key = dwell_cache_key(
             _chill_inputs(scenario, product, cook_keys[ck], tunnel, tset, factor, options), salt
         )
+        chill_keys[(*ck, tunnel.name, tset.name, loading.name)] = key
+        chills_of[ck].setdefault(key, (key, tunnel.name, tset.name, factor))
     belts = {t.name: (t.length, t.belt_speed_min, t.belt_speed_max) for t in scenario.tunnels}
     table_key = dwell_cache_key(
         {"rows": [[*k, v] for k, v in chill_keys.items()], "belts": belts}, salt
     )
+    total = len(cook_keys) + sum(len(v) for v in chills_of.values())
     cached = _read(cache, f"table-{table_key}.json")
     if cached is not None:
         if progress is not None:
-            progress(len(cells), len(cells), "cached")
+            progress(total, total, "read from the cache")
         return _frame(cached)
 
-    total = len(cook_keys) + len(chill_keys)
+    tasks = [_Task(*ck, cook_keys[ck], tuple(chills_of[ck].values())) for ck in cook_keys]
+    cooks: dict[tuple[str, str, str], dict[str, Any]] = {}
+    chills: dict[str, dict[str, Any]] = {}
     done = 0
-    cook_results: dict[tuple[str, str, str], dict[str, Any]] = {}
-    chill_results: dict[str, dict[str, Any]] = {}
-    rows: list[dict[str, Any]] = []
+
+    def finished(task: _Task, result: tuple[dict[str, Any], dict[str, dict[str, Any]], int]):
+        nonlocal done
+        cooks[(task.product, task.oven, task.setting)] = result[0]
+        chills.update(result[1])
+        done += 1 + len(task.chills)
+        if progress is not None:
+            progress(done, total, f"{task.product} in {task.oven}/{task.setting}")
+
+    n_workers = _default_workers(len(tasks)) if workers is None else max(1, int(workers))
+    if n_workers == 1:
+        for task in tasks:
+            finished(task, _run_task(scenario, task, cache, options))
+    else:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor, as_completed
+
+        # fork where the platform has it: workers only compute (no terminal output), and
+        # fork does not re-run the caller's main script as spawn would
+        methods = multiprocessing.get_all_start_methods()
+        context = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+        with ProcessPoolExecutor(max_workers=n_workers, mp_context=context) as pool:
+            futures = {
+                pool.submit(_run_task, scenario, task, cache, options): task for task in tasks
+            }
+            for future in as_completed(futures):
+                finished(futures[future], future.result())
+
+    rows = []
     for product, oven, oset, tunnel, tset, loading in cells:
         ck = (product.name, oven.name, oset.name)
-        if ck not in cook_results:
-            name = f"cook-{cook_keys[ck]}.json"
-            result = _read(cache, name)
-            if result is None:
-                result = _compute_cook(scenario, product, oset, options)
-                _write(cache, name, result)
-            cook_results[ck] = result
-            done += 1
-            if progress is not None:
-                progress(done, total, f"{product.name} in {oven.name}/{oset.name}")
-        cook = cook_results[ck]
-        key = chill_keys[(*ck, tunnel.name, tset.name, loading.name)]
-        if not cook["feasible"]:
-            chill = {
-                "feasible": False,
-                "minutes": math.nan,
-                "binding": "",
-                "reason": "not computed: the cook is ruled out",
-                "method": "",
-                "heat_out_kj_per_kg": math.nan,
-                "notes": [],
-            }
-        elif key in chill_results:
-            chill = chill_results[key]
-        else:
-            name = f"chill-{key}.json"
-            chill = _read(cache, name)
-            if chill is None:
-                chill = _compute_chill(
-                    scenario, product, cook, tunnel, tset, _loading_factor(loading), options
-                )
-                _write(cache, name, chill)
-            chill_results[key] = chill
-        done += 1
-        if progress is not None:
-            progress(done, total, f"{product.name} in {tunnel.name}/{tset.name}/{loading.name}")
-        rows.append(_row(product, oven, oset, tunnel, tset, loading, cook, chill))
+        chill = chills[chill_keys[(*ck, tunnel.name, tset.name, loading.name)]]
+        rows.append(_row(product, oven, oset, tunnel, tset, loading, cooks[ck], chill))
     _write(cache, f"table-{table_key}.json", rows)
     return _frame(rows)
 

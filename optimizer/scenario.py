@@ -695,8 +695,10 @@ class SlabGeometry(_GeometryBase):
 
     shape: Literal["slab"] = "slab"
     thickness: Length = Field(description="Full thickness [m].")
-    length: Length | None = Field(None, description="Plan length along the air flow [m].")
-    width: Length | None = Field(None, description="Plan width [m].")
+    length: Length = Field(
+        description="Plan length along the air flow [m] (sets the convection length)."
+    )
+    width: Length | None = Field(None, description="Plan width [m]; omit for a wide strip.")
     largest: _SlabLargest | None = Field(None, description="Largest piece dimensions [m].")
     _dims = ("thickness", "length", "width")
 

@@ -109,8 +109,8 @@ CASES = [
     ),
     (
         "duplicate-setting-name",
-        _set("ovens/1/settings/1/name", "steam-95"),
-        "ovens[1].settings[1].name: 'steam-95' is already used by ovens[1].settings[0]; "
+        _set("ovens/0/settings/1/name", "roast-180"),
+        "ovens[0].settings[1].name: 'roast-180' is already used by ovens[0].settings[0]; "
         "names must be unique",
     ),
     (
