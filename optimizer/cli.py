@@ -572,6 +572,15 @@ def dwell_used_table(dwell: pd.DataFrame, result: Any) -> pd.DataFrame:
     return dwell.loc[mask, columns].sort_values(DWELL_KEYS).reset_index(drop=True)
 
 
+def ruled_out_table(dwell: pd.DataFrame, products: Sequence[str]) -> pd.DataFrame:
+    """Dwell-table rows of the planned products that the physics rules out, with the reason."""
+    columns = [*DWELL_KEYS, "reason"]
+    if dwell.empty or "feasible" not in dwell.columns:
+        return pd.DataFrame(columns=columns)
+    mask = ~dwell["feasible"].astype(bool) & dwell["product"].isin(list(products))
+    return dwell.loc[mask, columns].reset_index(drop=True)
+
+
 _DWELL_USED_COLUMNS = (
     *DWELL_KEYS,
     "cook_min",
@@ -940,6 +949,7 @@ def run_plan(path: str, scenario: Any, args: argparse.Namespace, ui: Ui) -> Plan
     planned = sorted({o.product for o in inputs.orders})
     tables["rules"] = rules_table(scenario, planned)
     tables["dwell_used"] = dwell_used_table(dwell, result)
+    tables["dwell_ruled_out"] = ruled_out_table(dwell, planned)
     return PlanRun(
         path,
         file_sha256(path),

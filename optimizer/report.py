@@ -1095,8 +1095,8 @@ def plan_report(
     tables : mapping of str to pandas.DataFrame
         The exported tables by file stem: at least the planner's
         ``ovens``, ``tunnels``, ``totals``, ``utilisation``,
-        ``shadow_prices``, ``slack`` and ``shortfalls``; ``rules`` and
-        ``dwell_used`` when present. Every table shown in the report is one
+        ``shadow_prices``, ``slack`` and ``shortfalls``; ``rules``,
+        ``dwell_used`` and ``dwell_ruled_out`` when present. Every table shown in the report is one
         of these (per-shift parts of ``ovens`` and ``tunnels``).
     info : RunInfo
         Scenario file, hash, version, time.
@@ -1280,6 +1280,15 @@ def plan_report(
             tables["dwell_used"],
             caption="Cook and chill times of the largest piece at the planned settings",
             labels=COLUMN_LABELS,
+        )
+    if "dwell_ruled_out" in tables:
+        report.heading("Settings the physics rules out")
+        report.table(
+            "dwell_ruled_out",
+            tables["dwell_ruled_out"],
+            caption="Combinations of the ordered products that cannot meet their rules, and why",
+            labels=COLUMN_LABELS,
+            empty_text="none: every combination meets its rules",
         )
     if "slack" in tables:
         report.table(

@@ -47,6 +47,7 @@ PLAN_TABLES = (
     "shortfalls",
     "rules",
     "dwell_used",
+    "dwell_ruled_out",
 )
 
 
