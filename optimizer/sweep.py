@@ -20,7 +20,9 @@ the equipment purchases to price::
 
 A ``grid`` is a list of axes, each a change with ``values:`` instead of
 ``value:`` (or a mapping ``dotted.path: [values]``); its points are every
-combination, the first axis varying slowest.
+combination, the first axis varying slowest. ``common_changes:`` (a list of
+changes) apply to the base before every point's own; ``solver:`` may set
+``time_limit`` [s] and ``gap`` [-] for every plan.
 
 Changes
 -------
@@ -56,6 +58,9 @@ Each change is one of
                              ``shifts_per_week``)
     ``demand_growth``        multiply every order's ``min_kg`` and ``max_kg``
                              by ``value`` [-]
+    ``order_minimums``       multiply every order's ``min_kg`` by ``value``
+                             (``0``: no minimums, so the plan shows capacity
+                             rather than whether the order book fits) [-]
     ``product_mix``          multiply the orders of each product by its factor:
                              ``value`` is a mapping product → factor or the
                              name of one in ``product_mixes:`` [-]
@@ -157,6 +162,7 @@ WhatKind = Literal[
     "add_oven",
     "shift_pattern",
     "demand_growth",
+    "order_minimums",
     "product_mix",
 ]
 WHAT_KINDS: tuple[str, ...] = WhatKind.__args__  # type: ignore[attr-defined]
@@ -401,6 +407,9 @@ class StudySpec(_Model):
     base: str = Field(min_length=1, description="Base scenario file, relative to the study.")
     grid: list[AxisSpec] | None = Field(None, description="Axes of a grid of points.")
     points: list[PointSpec] | None = Field(None, description="Named points.")
+    common_changes: list[ChangeSpec] = Field(
+        default_factory=list, description="Changes applied to the base for every point, first."
+    )
     base_point: PointRef | None = Field(None, description="Point of today's plant (default first).")
     shifts_per_week: float = Field(DEFAULT_SHIFTS_PER_WEEK, gt=0, description="Shifts a week.")
     shift_patterns: dict[str, ShiftPattern] = Field(default_factory=dict)
@@ -532,11 +541,12 @@ def _names(items: Sequence[Any]) -> list[str]:
     return [str(x.get("name")) for x in items if isinstance(x, Mapping)]
 
 
-def _index(items: Sequence[Any], name: str, what: str) -> int:
+def _index(items: Sequence[Any], name: str, what: str, field: str) -> int:
     for i, item in enumerate(items):
         if isinstance(item, Mapping) and str(item.get("name")) == name:
             return i
-    raise _Fail(f"no {what} named {name!r}; known: {', '.join(_names(items)) or 'none'}")
+    known = ", ".join(_names(items)) or "none"
+    raise _Fail(f"{field}: no {what} named {name!r}; known: {known}")
 
 
 def _quantity(value: Any, kind: str, *, positive: bool = False) -> float:
@@ -566,7 +576,7 @@ def _tunnel(raw: Mapping[str, Any], machine: str | None) -> int:
                 f"({', '.join(_names(tunnels))}); name one"
             )
         return 0
-    return _index(tunnels, machine, "tunnel")
+    return _index(tunnels, machine, "tunnel", "machine")
 
 
 def _machine(raw: Mapping[str, Any], machine: str | None) -> tuple[str, int]:
@@ -575,7 +585,7 @@ def _machine(raw: Mapping[str, Any], machine: str | None) -> tuple[str, int]:
     for section in ("ovens", "tunnels"):
         items = _items(raw, section)
         if machine in _names(items):
-            return section, _index(items, machine, section[:-1])
+            return section, _index(items, machine, section[:-1], "machine")
     known = _names(_items(raw, "ovens")) + _names(_items(raw, "tunnels"))
     raise _Fail(f"machine: no oven or tunnel named {machine!r}; known: {', '.join(known)}")
 
@@ -585,7 +595,7 @@ def _air_targets(raw: Mapping[str, Any], spec: ChangeSpec) -> list[tuple[str, Ma
     section, i = _machine(raw, spec.machine)
     settings = _items(raw[section][i], "settings")
     if spec.setting is not None:
-        chosen = [_index(settings, spec.setting, "setting")]
+        chosen = [_index(settings, spec.setting, "setting", "setting")]
     else:
         chosen = list(range(len(settings)))
     out = []
@@ -599,7 +609,11 @@ def _air_targets(raw: Mapping[str, Any], spec: ChangeSpec) -> list[tuple[str, Ma
     return out
 
 
-def _scaled_orders(raw: Mapping[str, Any], factors: Mapping[str, float] | float) -> list[Change]:
+def _scaled_orders(
+    raw: Mapping[str, Any],
+    factors: Mapping[str, float] | float,
+    keys: tuple[str, ...] = ("min_kg", "max_kg"),
+) -> list[Change]:
     orders = _items(raw, "orders")
     if not orders:
         raise _Fail("the base scenario has no orders to scale (it makes as much as fits)")
@@ -620,7 +634,7 @@ def _scaled_orders(raw: Mapping[str, Any], factors: Mapping[str, float] | float)
             f = float(factors[order["product"]])
         else:
             f = float(factors)
-        for key in ("min_kg", "max_kg"):
+        for key in keys:
             if order.get(key) is not None:
                 kg = _quantity(order[key], "mass")
                 out.append(Change(f"orders.{n}.{key}", kg * f))
@@ -671,7 +685,7 @@ def _expand_what(spec: ChangeSpec, raw: Mapping[str, Any], study: StudySpec) -> 
             if len(ovens) != 1:
                 raise _Fail(f"copy_of: name the oven to copy; known: {', '.join(_names(ovens))}")
             source = _names(ovens)[0]
-        _index(ovens, source, "oven")
+        _index(ovens, source, "oven", "copy_of")
         stem = spec.name or f"{source}-copy"
         names = [stem] if value == 1 else [f"{stem}-{k}" for k in range(1, value + 1)]
         out = []
@@ -688,6 +702,8 @@ def _expand_what(spec: ChangeSpec, raw: Mapping[str, Any], study: StudySpec) -> 
         return [Change("shifts", copy.deepcopy(study.shift_patterns[value].shifts))]
     if what == "demand_growth":
         return _scaled_orders(raw, _factor(value))
+    if what == "order_minimums":
+        return _scaled_orders(raw, _factor(value), ("min_kg",))
     if what == "product_mix":
         mix = value
         if isinstance(mix, str):
@@ -834,7 +850,8 @@ class Study:
     base_path : Path
         The base scenario file.
     base_raw : dict
-        The base scenario as plain data (``extends`` and ``--set`` applied).
+        The base scenario as plain data (``extends``, ``--set`` and the
+        study's ``common_changes`` applied).
     points : tuple of StudyPoint
         The points, in order.
     axes : tuple of AxisSpec
@@ -993,13 +1010,22 @@ def load_study(
         base_raw = load_raw(base_path, base_changes)
     except OverrideError as exc:
         raise StudyError([f"{prefix}: base: {exc}"]) from None
+    default_per_week = spec.shifts_per_week
+    for n, change in enumerate(spec.common_changes):
+        try:
+            base_raw = apply_changes(base_raw, expand_change(change, base_raw, spec))
+        except (StudyError, OverrideError) as exc:
+            raise StudyError([f"{prefix}: common_changes[{n}]: {exc}"]) from None
+        if change.what == "shift_pattern":
+            pattern = spec.shift_patterns[str(change.value)]
+            default_per_week = pattern.shifts_per_week or default_per_week
 
     points: list[StudyPoint] = []
     problems: list[str] = []
     for index, (name, pairs, specs) in enumerate(_combos(spec)):
         raw = base_raw
         changes: list[Change] = []
-        per_week = spec.shifts_per_week
+        per_week = default_per_week
         for n, change in enumerate(specs):
             where = (
                 f"grid[{spec.grid.index(pairs[n][0])}] ({pairs[n][0].column()}="
