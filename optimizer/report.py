@@ -544,7 +544,8 @@ def timeline_figure(
             ax.barh(
                 y, width, left=bar.start, height=0.6, color=face, edgecolor="white", linewidth=0.8
             )
-            if bar.label and width > span * 0.06:
+            # label only bars wide enough for the text (about 1.3 % of the span a character)
+            if bar.label and width > span * 0.013 * (len(bar.label) + 2):
                 ax.text(
                     bar.start + width / 2,
                     y,
