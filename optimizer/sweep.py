@@ -1252,7 +1252,8 @@ def plan_row(scenario: Any, dwell: pd.DataFrame, result: Any) -> dict[str, Any]:
     -------
     dict
         ``status`` (a :class:`optimizer.results.SolveStatus` value),
-        ``has_plan``, ``total_kg`` [kg over the horizon], ``n_shifts``,
+        ``has_plan``, ``gap`` (relative MIP gap [-]), ``total_kg`` [kg over
+        the horizon], ``n_shifts``,
         ``kg_per_shift`` [kg], ``value`` [currency over the horizon, kg ×
         value_per_kg], ``objective_value`` and ``objective_unit``,
         ``bottleneck`` and ``bottleneck_kind``, ``marginal_value`` (the
@@ -1293,6 +1294,7 @@ def plan_row(scenario: Any, dwell: pd.DataFrame, result: Any) -> dict[str, Any]:
     return {
         "status": result.status.value,
         "has_plan": has_plan,
+        "gap": result.gap,
         "total_kg": float(result.total_kg),
         "n_shifts": n_shifts,
         "kg_per_shift": float(result.total_kg) / n_shifts if n_shifts else 0.0,
@@ -1501,6 +1503,7 @@ def run_study(
 RESULT_COLUMNS = (
     "point",
     "status",
+    "gap",
     "kg_per_shift",
     "kg_per_week",
     "value_per_week",
@@ -1524,7 +1527,8 @@ def results_table(study: Study, rows: Sequence[Mapping[str, Any]]) -> pd.DataFra
     """The results table: one row per point, in point order.
 
     Columns: ``point`` (name or label), the axis columns (values as written),
-    ``status``, ``kg_per_shift`` [kg], ``kg_per_week`` [kg/week],
+    ``status``, ``gap`` (relative MIP gap of the plan [-]), ``kg_per_shift``
+    [kg], ``kg_per_week`` [kg/week],
     ``value_per_week`` [currency/week], ``bottleneck`` (machine),
     ``bottleneck_kind``, ``marginal_value`` (bottleneck shadow price
     [objective unit/h]), ``marginal_unit``, ``energy_kwh`` (product heat over
@@ -1561,6 +1565,7 @@ def results_table(study: Study, rows: Sequence[Mapping[str, Any]]) -> pd.DataFra
         rec.update(
             {
                 "status": r.get("status", ""),
+                "gap": float(r["gap"]) if has and r.get("gap") is not None else math.nan,
                 "kg_per_shift": per_shift,
                 "kg_per_week": per_shift * point.shifts_per_week,
                 "value_per_week": (float(r["value"]) / n * point.shifts_per_week)
@@ -1669,8 +1674,12 @@ def purchase_table(
                 years=fin.years,
                 rate=fin.discount_rate,
             )
-            if point["status"] == "feasible_with_gap" or base["status"] == "feasible_with_gap":
-                note = "a plan stopped at the time limit (gap > 0): figures are bounds"
+            gaps = [g for g in (point["gap"], base["gap"]) if math.isfinite(g) and g > 1e-9]
+            stopped = "feasible_with_gap" in (point["status"], base["status"])
+            if stopped and gaps:
+                note = f"time limit: a plan may be up to {100 * max(gaps):.2g} % short of its best"
+            elif stopped:
+                note = "time limit: a plan may be short of its best"
         cases.append(case)
         rows.append(
             {
@@ -1701,6 +1710,7 @@ def purchase_table(
 # ---------------------------------------------------------------------------
 
 _MARKERS = ("o", "s", "^", "D", "v", "P", "X", "*")
+_LINE_STYLES = ("-", "--", ":", "-.", (0, (5, 1)), (0, (1, 3)), (0, (3, 1, 1, 1)), (0, (8, 3)))
 
 
 def _bottleneck_styles(table: pd.DataFrame) -> dict[str, tuple[str, str]]:
@@ -1732,7 +1742,7 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
     planned = table["status"].isin(["optimal", "feasible_with_gap"])
     figures: list[tuple[str, Any, str]] = []
 
-    def legend(ax: Any) -> None:
+    def legend(ax: Any, lines: Sequence[tuple[str, str]] = ()) -> None:
         from matplotlib.lines import Line2D
 
         handles = [
@@ -1741,6 +1751,7 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
         ]
         if (~planned).any():
             handles.append(Line2D([], [], color=MUTED, marker="x", linestyle="", label="no plan"))
+        handles += [Line2D([], [], color=MUTED, linestyle=ls, label=text) for text, ls in lines]
         ax.legend(handles=handles, fontsize=7.5, frameon=False, loc="best")
 
     def tidy(ax: Any) -> None:
@@ -1790,6 +1801,7 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
         fig = Figure(figsize=(7.4, 4.2))
         ax = fig.add_subplot(1, 1, 1)
         groups = list(table.groupby(others, sort=False)) if others else [((), table)]
+        lines: list[tuple[str, Any]] = []
         for key, sub in groups[:8]:
             sub = sub.sort_values(col, key=lambda s: s.map(order))
             xs = [by_text[v] if numeric else order[v] for v in sub[col]]
@@ -1801,16 +1813,10 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
             )
             line_x = [x for x, good in zip(xs, ok, strict=True) if good]
             line_y = [y for y, good in zip(ys, ok, strict=True) if good]
-            ax.plot(line_x, line_y, color=MUTED, linewidth=1.0, alpha=0.8, zorder=1)
-            if label and len(groups) > 1 and line_x:
-                ax.annotate(
-                    label,
-                    (line_x[-1], line_y[-1]),
-                    fontsize=6.5,
-                    color=MUTED,
-                    xytext=(3, 0),
-                    textcoords="offset points",
-                )
+            style = _LINE_STYLES[len(lines) % len(_LINE_STYLES)]
+            ax.plot(line_x, line_y, color=MUTED, linestyle=style, linewidth=1.0, zorder=1)
+            if label and len(groups) > 1:
+                lines.append((label, style))
             for x, y, good, b in zip(xs, ys, ok, sub["bottleneck"], strict=True):
                 if good:
                     c, m = styles.get(b, (MUTED, "o"))
@@ -1825,7 +1831,7 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
             ax.set_xticklabels([value_text(v) for v in axis.values], fontsize=8)
         shown = "" if len(groups) <= 8 else f" (first 8 of {len(groups)} lines)"
         ax.set_title(f"Throughput against {col}{shown}", fontsize=10, loc="left")
-        legend(ax)
+        legend(ax, lines)
         tidy(ax)
         fig.tight_layout()
         figures.append(
@@ -2121,7 +2127,9 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
     if args.restart and done_dir.is_dir():
         for f in done_dir.glob("*.json"):
             f.unlink()
-    already = len(done_indices(sweep_points(study, cache_dir=cli.cache_dir(args)), done_dir))
+    options = {"time_limit_s": args.time_limit, "gap_rel": args.gap, "solver": args.solver}
+    points = sweep_points(study, cache_dir=cli.cache_dir(args), **options)
+    already = len(done_indices(points, done_dir))
     if already:
         ui.say(f"resuming: {already} of {len(study.points)} points done in {done_dir}")
     cli.quiet_solver_banner()
@@ -2135,12 +2143,10 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
                 cache_dir=cli.cache_dir(args),
                 done_dir=done_dir,
                 on_done=lambda done, total, text: bar(done, total, text),
-                time_limit_s=args.time_limit,
-                gap_rel=args.gap,
-                solver=args.solver,
+                **options,
             )
     except KeyboardInterrupt:
-        kept = len(done_indices(sweep_points(study, cache_dir=cli.cache_dir(args)), done_dir))
+        kept = len(done_indices(points, done_dir))
         ui.problem(
             f"corepace sweep: interrupted; {kept} of {len(study.points)} points kept in "
             f"{done_dir}; run the same command again to resume"
