@@ -13,7 +13,12 @@ $(STAMP): pyproject.toml
 	touch $(STAMP)
 
 demo: $(STAMP)
-	$(PY) -m optimizer.demo --out reports/demo
+	$(VENV)/bin/corepace plan configs/demo.yaml --out reports/demo
+
+# The committed sample report: regenerated from the demo so it cannot go stale
+# silently (SOURCE_DATE_EPOCH pins the report's timestamp).
+sample: $(STAMP)
+	SOURCE_DATE_EPOCH=1767225600 $(VENV)/bin/corepace plan configs/demo.yaml --out reports/sample --quiet
 
 test: $(STAMP)
 	$(PY) -m pytest -q
