@@ -580,3 +580,77 @@ def test_python_dash_m_reports_bad_input(tmp_path):
     assert result.returncode == EXIT_BAD_INPUT
     assert len(result.stderr.strip().splitlines()) >= 3
     assert "Traceback" not in result.stderr
+
+
+# ---------------------------------------------------------------------------
+# every planned batch and tunnel run re-checked against the thermal layer
+# ---------------------------------------------------------------------------
+
+
+def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
+    """Re-simulate the plan the user receives (its CSV tables) on a finer grid.
+
+    Each oven line is simulated for its batch dwell at its setting (the
+    largest piece, the rules without the safety margin, which the plan must
+    meet with room to spare); each tunnel run from the hottest oven exit the
+    plan allows for that product and oven setting in that shift (the longest
+    batch dwell: in a mixed batch a product stays as long as the slowest one),
+    through the shortest and the longest wait before the belt, at the planned
+    belt speed.
+    """
+    from optimizer import dwell
+    from optimizer.scenario import load_scenario
+    from thermal import process
+
+    code, out, _ = demo_plan
+    assert code == EXIT_OK
+    scenario = load_scenario(plant)
+    products = {p.name: p for p in scenario.products}
+    ovens = {o.name: o for o in scenario.ovens}
+    tunnels = {t.name: t for t in scenario.tunnels}
+    batches = pd.read_csv(out / "ovens.csv")
+    runs = pd.read_csv(out / "tunnels.csv")
+    assert len(batches) and len(runs)
+
+    exit_profile: dict[tuple[str, str, str, str], tuple[float, object]] = {}
+    for row in batches.itertuples(index=False):
+        setting = next(s for s in ovens[row.oven].settings if s.name == row.setting)
+        for name in (n.strip() for n in row.products.split(",")):
+            spec = products[name]
+            rule = dwell.cook_rule(scenario.cook_rule(spec), spec.initial_temperature, 0.0)
+            piece = dwell.thermal_product(spec, emissivity=setting.emissivity)
+            hist, final = process.run_stages(
+                piece,
+                spec.initial_temperature,
+                process.OvenStage(dwell.air_setting(setting)),
+                row.cook_min * 60.0,
+            )
+            verdict = rule.check(hist.times, hist.core, hist.surface_max)
+            assert verdict.met, f"{row.oven} {row.shift} {name}: {verdict.reason}"
+            key = (row.shift, name, row.oven, row.setting)
+            if key not in exit_profile or row.cook_min > exit_profile[key][0]:
+                exit_profile[key] = (row.cook_min, final)
+
+    for run in runs.itertuples(index=False):
+        spec = products[run.product]
+        tunnel = tunnels[run.tunnel]
+        setting = next(s for s in tunnel.settings if s.name == run.tunnel_setting)
+        loading = next(opt for opt in tunnel.loadings if opt.name == run.loading)
+        zones = dwell.tunnel_zones(tunnel, setting, dwell._loading_factor(loading))
+        rule = dwell.chill_rule(scenario.chill_rule(spec), 0.0)
+        _, start = exit_profile[(run.shift, run.product, run.oven, run.oven_setting)]
+        residence = tunnel.length / run.belt_speed_m_per_min * 60.0
+        for wait in dwell._hold_waits(tunnel):
+            hist, _ = process.run_stages(
+                dwell.thermal_product(spec),
+                start,
+                None,
+                0.0,
+                dwell._transfer(tunnel.transfer, wait),
+                zones,
+                residence,
+            )
+            verdict = rule.check(hist.times, hist.core)
+            assert verdict.met, (
+                f"{run.tunnel} {run.shift} {run.product} wait {wait} min: {verdict.reason}"
+            )
