@@ -26,7 +26,9 @@ def as_float_array(name: str, value: ArrayLike, *, allow_inf: bool = False) -> N
     try:
         arr = np.asarray(value, dtype=float)
     except (TypeError, ValueError):
-        raise ThermalInputError(f"{name}: must be a number or array of numbers, got {value!r}") from None
+        raise ThermalInputError(
+            f"{name}: must be a number or array of numbers, got {value!r}"
+        ) from None
     if np.isnan(arr).any():
         raise ThermalInputError(f"{name}: must not be NaN")
     if not allow_inf and np.isinf(arr).any():
