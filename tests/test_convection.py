@@ -75,7 +75,7 @@ def test_air_setting_humidity_from_relative_and_ratio():
     [
         ({"temperature": -274.0, "speed": 1.0}, r"^temperature: must be above absolute zero"),
         ({"temperature": 20.0, "speed": -1.0}, r"^speed: must be >= 0"),
-        ({"temperature": 20.0, "speed": float("nan")}, r"^speed: must not be NaN"),
+        ({"temperature": 20.0, "speed": float("nan")}, r"^speed: must be >= 0, got nan$"),
         ({"temperature": 20.0, "speed": [1.0, 2.0]}, r"^speed: must be a single number"),
         ({"temperature": 20.0, "speed": 1.0, "pressure": -5.0}, r"^pressure: must be > 0"),
         (
@@ -103,6 +103,18 @@ def test_air_setting_humidity_from_relative_and_ratio():
             r"^wall_temperature: must be above",
         ),
         ({"temperature": 20.0, "speed": 1.0, "measured_h": 0.0}, r"^measured_h: must be > 0"),
+        (
+            {"temperature": 20.0, "speed": 1.0, "humidity_ratio": float("nan")},
+            r"^humidity_ratio: must be >= 0 kg/kg \(inf = pure steam\), got nan$",
+        ),
+        (
+            {"temperature": 20.0, "speed": 1.0, "relative_humidity": float("nan")},
+            r"^relative_humidity: must be in \[0\.0, 1\.0\], got nan$",
+        ),
+        (
+            {"temperature": 20.0, "speed": 1.0, "wall_temperature": float("nan")},
+            r"^wall_temperature: must be above absolute zero \(-273\.15 °C\), got nan$",
+        ),
     ],
 )
 def test_air_setting_bad_input(kwargs, match):

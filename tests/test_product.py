@@ -225,5 +225,8 @@ def test_bad_call_input() -> None:
         sausage.time_to_core(air, t_initial=-300.0, t_target=72.0)
     with pytest.raises(ThermalInputError, match="h: must be >= 0"):
         sausage.biot(-5.0, 20.0)
-    with pytest.raises(ThermalInputError, match="temperature: must not be NaN"):
+    with pytest.raises(
+        ThermalInputError,
+        match=r"^temperature: must be above absolute zero \(-273\.15 °C\), got nan$",
+    ):
         sausage.biot(5.0, float("nan"))

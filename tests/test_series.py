@@ -359,33 +359,96 @@ def test_inverse_never_nan(shape, bi, ratio, x):
 # --------------------------------------------------------------------------
 # bad input
 # --------------------------------------------------------------------------
+SHAPE_DOMAIN = "one of 'slab', 'cylinder', 'sphere'"
+BIOT_DOMAIN = ">= 0 (or inf)"
+FOURIER_DOMAIN = ">= 0 (or inf)"
+POSITION_DOMAIN = "in [0.0, 1.0]"
+RATIO_DOMAIN = "> 0 (θ = (T - T_air)/(T_i - T_air); 0 is never reached)"
+NAN_IN_PAIR = "nan in an array of shape (2,)"
+
+
 @pytest.mark.parametrize(
-    "call, name",
+    "call, name, accepted, given",
     [
-        (lambda: series.temperature_ratio("cube", 1.0, 0.1), "shape"),
-        (lambda: series.temperature_ratio(3, 1.0, 0.1), "shape"),
-        (lambda: series.temperature_ratio("slab", -1.0, 0.1), "biot"),
-        (lambda: series.temperature_ratio("slab", np.nan, 0.1), "biot"),
-        (lambda: series.temperature_ratio("slab", 1.0, -0.1), "fourier"),
-        (lambda: series.temperature_ratio("slab", 1.0, [0.1, np.nan]), "fourier"),
-        (lambda: series.temperature_ratio("slab", 1.0, 0.1, 1.2), "position"),
-        (lambda: series.temperature_ratio("slab", 1.0, 0.1, -0.1), "position"),
-        (lambda: series.mean_temperature_ratio("ball", 1.0, 0.1), "shape"),
-        (lambda: series.mean_temperature_ratio("slab", 1.0, "soon"), "fourier"),
-        (lambda: series.fourier_for_ratio("slab", 1.0, 0.0), "ratio"),
-        (lambda: series.fourier_for_ratio("slab", 1.0, -0.5), "ratio"),
-        (lambda: series.fourier_for_ratio("slab", 1.0, np.nan), "ratio"),
-        (lambda: series.fourier_for_ratio("slab", -2.0, 0.5), "biot"),
-        (lambda: series.fourier_for_ratio("sphere", 1.0, 0.5, 2.0), "position"),
-        (lambda: series.eigenvalues("slab", 1.0, 0), "n"),
-        (lambda: series.eigenvalues("slab", 1.0, 2.5), "n"),
-        (lambda: series.eigenvalues("torus", 1.0, 2), "shape"),
+        (lambda: series.temperature_ratio("cube", 1.0, 0.1), "shape", SHAPE_DOMAIN, "'cube'"),
+        (lambda: series.temperature_ratio(3, 1.0, 0.1), "shape", SHAPE_DOMAIN, "3"),
+        (lambda: series.temperature_ratio("slab", -1.0, 0.1), "biot", BIOT_DOMAIN, "-1.0"),
+        (lambda: series.temperature_ratio("slab", np.nan, 0.1), "biot", BIOT_DOMAIN, "nan"),
+        (lambda: series.temperature_ratio("slab", 1.0, -0.1), "fourier", FOURIER_DOMAIN, "-0.1"),
+        (
+            lambda: series.temperature_ratio("slab", 1.0, [0.1, np.nan]),
+            "fourier",
+            FOURIER_DOMAIN,
+            NAN_IN_PAIR,
+        ),
+        (
+            lambda: series.temperature_ratio("slab", 1.0, 0.1, 1.2),
+            "position",
+            POSITION_DOMAIN,
+            "1.2",
+        ),
+        (
+            lambda: series.temperature_ratio("slab", 1.0, 0.1, -0.1),
+            "position",
+            POSITION_DOMAIN,
+            "-0.1",
+        ),
+        (
+            lambda: series.temperature_ratio("slab", 1.0, 0.1, np.nan),
+            "position",
+            POSITION_DOMAIN,
+            "nan",
+        ),
+        (
+            lambda: series.temperature_ratio("cylinder", 1.0, 0.1, [0.5, np.nan]),
+            "position",
+            POSITION_DOMAIN,
+            NAN_IN_PAIR,
+        ),
+        (lambda: series.mean_temperature_ratio("ball", 1.0, 0.1), "shape", SHAPE_DOMAIN, "'ball'"),
+        (
+            lambda: series.mean_temperature_ratio("slab", 1.0, "soon"),
+            "fourier",
+            "a number or array of numbers",
+            "'soon'",
+        ),
+        (
+            lambda: series.mean_temperature_ratio("sphere", np.nan, 0.1),
+            "biot",
+            BIOT_DOMAIN,
+            "nan",
+        ),
+        (
+            lambda: series.mean_temperature_ratio("slab", [2.0, np.nan], 0.1),
+            "biot",
+            BIOT_DOMAIN,
+            NAN_IN_PAIR,
+        ),
+        (lambda: series.fourier_for_ratio("slab", 1.0, 0.0), "ratio", RATIO_DOMAIN, "0.0"),
+        (lambda: series.fourier_for_ratio("slab", 1.0, -0.5), "ratio", RATIO_DOMAIN, "-0.5"),
+        (lambda: series.fourier_for_ratio("slab", 1.0, np.nan), "ratio", RATIO_DOMAIN, "nan"),
+        (
+            lambda: series.fourier_for_ratio("sphere", 1.0, [0.5, np.nan]),
+            "ratio",
+            RATIO_DOMAIN,
+            NAN_IN_PAIR,
+        ),
+        (lambda: series.fourier_for_ratio("slab", -2.0, 0.5), "biot", BIOT_DOMAIN, "-2.0"),
+        (
+            lambda: series.fourier_for_ratio("sphere", 1.0, 0.5, 2.0),
+            "position",
+            POSITION_DOMAIN,
+            "2.0",
+        ),
+        (lambda: series.eigenvalues("slab", 1.0, 0), "n", "an integer >= 1", "0"),
+        (lambda: series.eigenvalues("slab", 1.0, 2.5), "n", "an integer >= 1", "2.5"),
+        (lambda: series.eigenvalues("torus", 1.0, 2), "shape", SHAPE_DOMAIN, "'torus'"),
+        (lambda: series.eigenvalues("slab", np.nan, 2), "biot", BIOT_DOMAIN, "nan"),
     ],
 )
-def test_bad_input_names_the_argument(call, name):
+def test_bad_input_names_the_argument_and_the_accepted_domain(call, name, accepted, given):
+    # One line: the argument, what is accepted, what was given (NaN included).
     with pytest.raises(ThermalInputError) as err:
         call()
-    message = str(err.value)
-    assert message.startswith(f"{name}:")
-    assert "\n" not in message
+    assert str(err.value) == f"{name}: must be {accepted}, got {given}"
     assert isinstance(err.value, ValueError)

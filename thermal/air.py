@@ -408,12 +408,12 @@ def water_mole_fraction(humidity_ratio: ArrayLike) -> NDArray[np.float64]:
 
 
 def _check_humidity_ratio(humidity_ratio: ArrayLike) -> NDArray[np.float64]:
-    w = as_float_array("humidity_ratio", humidity_ratio, allow_inf=True)
+    domain = ">= 0 kg/kg (inf = pure steam)"
+    w = as_float_array("humidity_ratio", humidity_ratio, allow_inf=True, accepted=domain)
     bad = (w < 0) | np.isneginf(w)
     if bad.any():
         raise ThermalInputError(
-            "humidity_ratio: must be >= 0 kg/kg (inf = pure steam), "
-            f"got {float(w[bad].ravel()[0])!r}"
+            f"humidity_ratio: must be {domain}, got {float(w[bad].ravel()[0])!r}"
         )
     return w
 

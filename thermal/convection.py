@@ -651,8 +651,10 @@ _DEFAULT_NATURAL = {
 # --------------------------------------------------------------------------
 
 
-def _scalar(name: str, value: Any, *, allow_inf: bool = False) -> float:
-    arr = as_float_array(name, value, allow_inf=allow_inf)
+def _scalar(
+    name: str, value: Any, *, allow_inf: bool = False, accepted: str | None = None
+) -> float:
+    arr = as_float_array(name, value, allow_inf=allow_inf, accepted=accepted)
     if arr.ndim != 0:
         raise ThermalInputError(
             f"{name}: must be a single number, got an array of shape {arr.shape}"
@@ -709,30 +711,35 @@ class AirSetting:
     moisture: float = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
-        t = float(temperature_c("temperature", _scalar("temperature", self.temperature)))
-        speed = float(nonnegative("speed", _scalar("speed", self.speed)))
-        p = float(positive("pressure", _scalar("pressure", self.pressure)))
+        t = _scalar("temperature", temperature_c("temperature", self.temperature))
+        speed = _scalar("speed", nonnegative("speed", self.speed))
+        p = _scalar("pressure", positive("pressure", self.pressure))
         object.__setattr__(self, "temperature", t)
         object.__setattr__(self, "speed", speed)
         object.__setattr__(self, "pressure", p)
         if self.wall_temperature is not None:
-            tw = _scalar("wall_temperature", self.wall_temperature)
-            object.__setattr__(
-                self, "wall_temperature", float(temperature_c("wall_temperature", tw))
+            tw = _scalar(
+                "wall_temperature", temperature_c("wall_temperature", self.wall_temperature)
             )
+            object.__setattr__(self, "wall_temperature", tw)
         if self.measured_h is not None:
-            h = float(positive("measured_h", _scalar("measured_h", self.measured_h)))
+            h = _scalar("measured_h", positive("measured_h", self.measured_h))
             object.__setattr__(self, "measured_h", h)
         if self.relative_humidity is not None and self.humidity_ratio is not None:
             raise ThermalInputError(
                 "relative_humidity: give either relative_humidity or humidity_ratio, not both"
             )
         if self.relative_humidity is not None:
-            rh = _scalar("relative_humidity", self.relative_humidity)
+            rh = _scalar("relative_humidity", self.relative_humidity, accepted="in [0.0, 1.0]")
             object.__setattr__(self, "relative_humidity", rh)
             w = 0.0 if rh == 0.0 else float(humidity_ratio_from_relative(t, rh, p))
         elif self.humidity_ratio is not None:
-            w = _scalar("humidity_ratio", self.humidity_ratio, allow_inf=True)
+            w = _scalar(
+                "humidity_ratio",
+                self.humidity_ratio,
+                allow_inf=True,
+                accepted=">= 0 kg/kg (inf = pure steam)",
+            )
             object.__setattr__(self, "humidity_ratio", w)
             air_properties(t, p, w)  # refuses negative or supersaturated values
         else:
@@ -827,7 +834,7 @@ def _dimension(geometry: Any, name: str) -> float:
         raise ThermalInputError(
             f"geometry.{name}: required for convection on a {geometry.kind!r} shape, got None"
         )
-    return float(positive(f"geometry.{name}", _scalar(f"geometry.{name}", value)))
+    return _scalar(f"geometry.{name}", positive(f"geometry.{name}", value))
 
 
 def _horizontal_plates(area: float, char_length: float, hot: bool) -> list[_Face]:
@@ -1054,17 +1061,15 @@ def surface_coefficient(
     """
     if not isinstance(air, AirSetting):
         raise ThermalInputError(f"air: must be an AirSetting, got {type(air).__name__}")
-    lf = _scalar("loading_factor", loading_factor)
+    lf = _scalar("loading_factor", loading_factor, accepted="in (0, 1.5]")
     low, high = LOADING_FACTOR_RANGE
     if not low < lf <= high:
         raise ThermalInputError(f"loading_factor: must be in (0, 1.5], got {lf!r}")
-    eps = float(in_range("emissivity", _scalar("emissivity", emissivity), 0.0, 1.0))
+    eps = _scalar("emissivity", in_range("emissivity", emissivity, 0.0, 1.0))
     ts = None
     if surface_temperature is not None:
-        ts = float(
-            temperature_c(
-                "surface_temperature", _scalar("surface_temperature", surface_temperature)
-            )
+        ts = _scalar(
+            "surface_temperature", temperature_c("surface_temperature", surface_temperature)
         )
     t_air = air.temperature
     hot = ts is not None and ts > t_air

@@ -193,12 +193,12 @@ def zone_segments(
     list of Segment
         One segment per zone with ``duration = length / belt_speed`` [s].
     """
-    lengths = as_float_array("zone_lengths", zone_lengths)
+    lengths = as_float_array("zone_lengths", zone_lengths, accepted="> 0 m")
     if lengths.ndim != 1 or lengths.size == 0:
         raise ThermalInputError("zone_lengths: must be a non-empty 1-D sequence of lengths [m]")
     if (lengths <= 0).any():
         raise ThermalInputError("zone_lengths: every zone length must be > 0 m")
-    speed = as_float_array("belt_speed", belt_speed)
+    speed = as_float_array("belt_speed", belt_speed, accepted="> 0 m/s")
     if (speed <= 0).any():
         raise ThermalInputError("belt_speed: must be > 0 m/s")
     n = lengths.size

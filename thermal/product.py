@@ -225,7 +225,7 @@ class Product:
         BiotNumbers
             Per direction ``h L_i / k`` and lumped ``h (V/A) / k``.
         """
-        h_value = float(nonnegative("h", _scalar("h", h)))
+        h_value = _scalar("h", nonnegative("h", h))
         t = _scalar("temperature", temperature_c("temperature", temperature))
         k = float(self.conductivity(t))
         per_direction = tuple(

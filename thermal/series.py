@@ -114,13 +114,15 @@ def _check_position(position: ArrayLike) -> NDArray[np.float64]:
     return in_range("position", position, 0.0, 1.0)
 
 
+_RATIO_DOMAIN = "> 0 (θ = (T - T_air)/(T_i - T_air); 0 is never reached)"
+
+
 def _check_ratio(ratio: ArrayLike) -> NDArray[np.float64]:
-    arr = as_float_array("ratio", ratio, allow_inf=True)
+    arr = as_float_array("ratio", ratio, allow_inf=True, accepted=_RATIO_DOMAIN)
     bad = arr <= 0
     if bad.any():
         raise ThermalInputError(
-            "ratio: must be > 0 (θ = (T - T_air)/(T_i - T_air); 0 is never reached), "
-            f"got {float(arr[bad].ravel()[0])!r}"
+            f"ratio: must be {_RATIO_DOMAIN}, got {float(arr[bad].ravel()[0])!r}"
         )
     return arr
 
