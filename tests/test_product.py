@@ -11,11 +11,15 @@ Lavine, *Fundamentals of Heat and Mass Transfer*, section 5.5 (plane wall
 
 from __future__ import annotations
 
+import doctest
+
 import numpy as np
 import pytest
 from scipy.optimize import brentq
 from scipy.special import j0, j1, jn_zeros
 
+import thermal
+from thermal import product as product_module
 from thermal import series
 from thermal.convection import AirSetting, surface_coefficient
 from thermal.errors import ThermalInputError, UnreachableTargetError
@@ -230,3 +234,32 @@ def test_bad_call_input() -> None:
         match=r"^temperature: must be above absolute zero \(-273\.15 °C\), got nan$",
     ):
         sausage.biot(5.0, float("nan"))
+
+
+# --------------------------------------------------------------------------- docstring example
+
+
+def test_product_docstring_example_runs_and_prints_what_the_code_gives() -> None:
+    # Only Product's own docstring (recurse=False); fresh globals, so the
+    # example must import what it uses from the package itself.
+    finder = doctest.DocTestFinder(recurse=False)
+    (test,) = finder.find(product_module.Product, "Product", module=product_module, globs={})
+    assert not any(ex.options.get(doctest.SKIP) for ex in test.examples)
+    report: list[str] = []
+    runner = doctest.DocTestRunner(verbose=False)
+    result = runner.run(test, out=report.append)
+    assert result.failed == 0, "".join(report)
+    assert result.attempted == len(test.examples) >= 4
+
+
+def test_package_exports_the_product_api() -> None:
+    # What a user needs for "a 28 mm sausage of this composition in 3 m/s air
+    # at 175 °C", importable from the package itself.
+    for name in ("Product", "AirSetting", "Composition", "FoodProperties", "ConstantProperties"):
+        assert name in thermal.__all__
+    assert thermal.Product is Product
+    assert thermal.AirSetting is AirSetting
+    assert thermal.Composition is Composition
+    assert thermal.FoodProperties is FoodProperties
+    assert thermal.ConstantProperties is ConstantProperties
+    assert thermal.CoreTimeResult is CoreTimeResult and thermal.BiotNumbers is BiotNumbers

@@ -4,6 +4,8 @@ Pure functions and typed results in SI units (temperatures in °C). This
 package never imports :mod:`optimizer`.
 """
 
+from thermal.convection import AirSetting
+from thermal.foods import Composition, ConstantProperties, FoodProperties
 from thermal.geometry import (
     LUMPED_BIOT_LIMIT,
     Block,
@@ -20,6 +22,7 @@ from thermal.geometry import (
     temperature_ratio_at,
     time_to_temperature,
 )
+from thermal.product import BiotNumbers, CoreTimeResult, Product
 from thermal.series import (
     SHAPES,
     eigenvalues,
@@ -31,9 +34,16 @@ from thermal.series import (
 __all__ = [
     "LUMPED_BIOT_LIMIT",
     "SHAPES",
+    "AirSetting",
+    "BiotNumbers",
     "Block",
+    "Composition",
+    "ConstantProperties",
+    "CoreTimeResult",
     "FiniteCylinder",
+    "FoodProperties",
     "InfiniteCylinder",
+    "Product",
     "Shape",
     "Slab",
     "Sphere",
