@@ -1,22 +1,26 @@
 """Bad scenario input: one line per problem naming the field and what is accepted.
 
-Each case starts from the shipped demo scenario, breaks one thing, and checks
-(1) the exact line reported, (2) that ``load_scenario`` raises before anything
-runs (the dwell table is never built: a counter on ``build_dwell_table`` stays
-at zero and its cache directory is not created), and (3) that the command
-line exits with code 2 and writes no output directory.
+Each case starts from the shipped demo scenario and breaks one thing. The
+library check asserts the exact line ``load_scenario`` reports. The command
+line check runs ``corepace dwell`` and ``corepace plan`` (the commands that
+write output and the dwell-table cache) on every case and asserts exit code
+2, one stderr line per problem naming the field, no traceback, and that
+nothing was written: not in ``--out``, not in ``--cache-dir``, not in the
+working directory (where the default output would go) and not in the default
+cache directory.
 """
 
 from __future__ import annotations
 
 import copy
+import re
 from pathlib import Path
 from typing import Any
 
 import pytest
 import yaml
 
-import optimizer.dwell as dwell_module
+from optimizer.cli import main
 from optimizer.scenario import ScenarioError, load_scenario, scenario_from_dict
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
@@ -309,20 +313,6 @@ CASES = [
 ]
 
 
-@pytest.fixture
-def dwell_calls(monkeypatch):
-    """Count calls of build_dwell_table (it must never run on a bad scenario)."""
-    calls: list[Any] = []
-    real = dwell_module.build_dwell_table
-
-    def counting(*args, **kwargs):
-        calls.append((args, kwargs))
-        return real(*args, **kwargs)
-
-    monkeypatch.setattr(dwell_module, "build_dwell_table", counting)
-    return calls
-
-
 def _write(tmp_path: Path, change) -> Path:
     data = copy.deepcopy(DEMO)
     change(data)
@@ -331,10 +321,10 @@ def _write(tmp_path: Path, change) -> Path:
     return path
 
 
-def _plan(path: Path, cache: Path) -> None:
-    """What every command does: validate first, then build the dwell table."""
-    scenario = load_scenario(path)
-    dwell_module.build_dwell_table(scenario, cache_dir=cache)
+def _problems(path: Path) -> list[str]:
+    with pytest.raises(ScenarioError) as exc:
+        load_scenario(path)
+    return exc.value.problems
 
 
 def test_there_are_at_least_twenty_distinct_cases():
@@ -343,34 +333,42 @@ def test_there_are_at_least_twenty_distinct_cases():
 
 
 @pytest.mark.parametrize(("case", "change", "line"), CASES, ids=[c[0] for c in CASES])
-def test_bad_input_names_the_field_and_writes_nothing(case, change, line, tmp_path, dwell_calls):
-    path = _write(tmp_path, change)
-    cache = tmp_path / "cache"
-    before = sorted(p.name for p in tmp_path.iterdir())
-    with pytest.raises(ScenarioError) as exc:
-        _plan(path, cache)
-    assert line in exc.value.problems, "\n".join(exc.value.problems)
-    assert all("\n" not in p for p in exc.value.problems)
-    assert dwell_calls == []
-    assert not cache.exists()
-    assert sorted(p.name for p in tmp_path.iterdir()) == before
+def test_bad_input_names_the_field(case, change, line, tmp_path):
+    problems = _problems(_write(tmp_path, change))
+    assert line in problems, "\n".join(problems)
+    assert all("\n" not in p for p in problems)
 
 
-@pytest.mark.parametrize(
-    ("case", "change", "line"),
-    [c for c in CASES if c[0] in {"wrong-dimension", "order-unknown-product", "min-above-max"}],
-    ids=lambda c: c if isinstance(c, str) else "",
-)
-def test_command_line_exits_2_and_writes_nothing(case, change, line, tmp_path, capsys):
-    from optimizer.cli import main
+# "<file>: <field path>: <what is accepted, what was given>"
+FIELD_LINE = re.compile(r"^bad\.yaml: [A-Za-z_][\w.\[\]\-]*: \S")
 
-    path = _write(tmp_path, change)
-    out = tmp_path / "out"
-    cache = tmp_path / "cache"
-    code = main(["dwell", str(path), "--out", str(out), "--cache-dir", str(cache)])
+
+@pytest.mark.parametrize("command", ["dwell", "plan"])
+@pytest.mark.parametrize(("case", "change", "line"), CASES, ids=[c[0] for c in CASES])
+def test_command_line_exits_2_and_writes_nothing(
+    command, case, change, line, tmp_path, monkeypatch, capsys
+):
+    work = tmp_path / "work"
+    work.mkdir()
+    path = _write(work, change)
+    problems = _problems(path)
+    # Default output (corepace-out/ under the working directory) and default
+    # cache ($XDG_CACHE_HOME) both land inside `work` if anything is written.
+    monkeypatch.chdir(work)
+    monkeypatch.setenv("XDG_CACHE_HOME", str(work / "xdg-cache"))
+    monkeypatch.setenv("HOME", str(work / "home"))
+    out, cache = work / "out", work / "cache"
+    code = main([command, "bad.yaml", "--out", str(out), "--cache-dir", str(cache)])
+    captured = capsys.readouterr()
     assert code == 2
-    assert line in capsys.readouterr().err
+    assert "Traceback" not in captured.err and "Traceback" not in captured.out
+    lines = captured.err.splitlines()
+    assert lines == [f"bad.yaml: {p}" for p in problems]
+    assert f"bad.yaml: {line}" in lines
+    bad = [x for x in lines if not FIELD_LINE.match(x)]
+    assert not bad, bad
     assert not out.exists() and not cache.exists()
+    assert sorted(p.name for p in work.iterdir()) == ["bad.yaml"]
 
 
 def test_all_problems_are_reported_together(tmp_path):
