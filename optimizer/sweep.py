@@ -1385,6 +1385,14 @@ class SweepResult:
     cases: tuple[PurchaseCase | None, ...] = field(default=())
 
 
+CLUSTER_CONNECT_TIMEOUT_S = 10.0
+"""How long a sweep waits for a Dask scheduler to answer before giving up [s].
+
+Dask's own default (30 s, retrying a refused connection all the while) leaves
+a mistyped ``--cluster`` address looking like a hung command.
+"""
+
+
 def run_study(
     study: Study,
     *,
@@ -1414,7 +1422,8 @@ def run_study(
     workers : int, optional
         Pool size (default: the number of CPUs).
     cluster : str or distributed.Client, optional
-        Dask scheduler address (``tcp://host:8786``) or a Client.
+        Dask scheduler address (``tcp://host:8786``; the connection is given
+        up after :data:`CLUSTER_CONNECT_TIMEOUT_S`) or a Client.
     cache_dir : str or Path, optional
         Shared dwell-table cache (every worker must reach the same path).
     done_dir : str or Path, optional
@@ -1462,7 +1471,7 @@ def run_study(
                 from distributed import Client
             except ImportError:
                 raise ValueError("--cluster: dask.distributed is not installed") from None
-            client = Client(cluster)
+            client = Client(cluster, timeout=CLUSTER_CONNECT_TIMEOUT_S)
             target = client
         if mode is ExecMode.POOL:
             pool = new_pool(workers)
@@ -2094,9 +2103,10 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
     Raises
     ------
     optimizer.cli.BadInput
-        For a bad study file or option (nothing is written).
+        For a bad study file or option, or a ``--cluster`` address where no
+        scheduler answers (nothing is written).
     """
-    from optimizer import cli, export
+    from optimizer import cli
     from optimizer.overrides import parse_assignment
 
     study_path = Path(args.study)
@@ -2122,6 +2132,51 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
         mode = ExecMode.SERIAL
     else:
         mode = ExecMode.POOL
+    # reach the scheduler before anything is written: a bad address is bad input
+    client = _connect(args.cluster) if mode is ExecMode.CLUSTER else None
+    try:
+        return _sweep_into(target, study, study_path, args, ui, mode, client)
+    finally:
+        if client is not None:
+            client.close()
+
+
+def _connect(address: str) -> Any:
+    """A Dask client on the scheduler at ``address``.
+
+    Raises
+    ------
+    optimizer.cli.BadInput
+        One line when dask.distributed is missing, the address is malformed
+        or no scheduler answers within :data:`CLUSTER_CONNECT_TIMEOUT_S`.
+    """
+    from optimizer import cli
+
+    try:
+        from distributed import Client
+    except ImportError:
+        raise cli.BadInput(
+            ["--cluster: dask.distributed is not installed; install the 'sweep' extra"]
+        ) from None
+    try:
+        return Client(address, timeout=CLUSTER_CONNECT_TIMEOUT_S)
+    except (OSError, ValueError, TypeError) as exc:
+        reason = " ".join(str(exc).split()) or type(exc).__name__
+        raise cli.BadInput([f"--cluster {address}: cannot connect ({reason})"]) from None
+
+
+def _sweep_into(
+    target: Path,
+    study: Study,
+    study_path: Path,
+    args: argparse.Namespace,
+    ui: Any,
+    mode: ExecMode,
+    client: Any,
+) -> int:
+    """Run the points of a loaded study and write its tables and report into ``target``."""
+    from optimizer import cli, export
+
     cli._prepare_out(target)
     done_dir = target / "points"
     if args.restart and done_dir.is_dir():
@@ -2139,7 +2194,7 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
                 study,
                 mode=mode,
                 workers=args.workers,
-                cluster=args.cluster,
+                cluster=client,
                 cache_dir=cli.cache_dir(args),
                 done_dir=done_dir,
                 on_done=lambda done, total, text: bar(done, total, text),
@@ -2153,8 +2208,15 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
         )
         return 130
     except OSError as exc:
-        if mode is ExecMode.CLUSTER:
-            raise cli.BadInput([f"--cluster {args.cluster}: cannot connect ({exc})"]) from None
+        if mode is ExecMode.CLUSTER:  # connected at the start: failed on the way
+            kept = len(done_indices(points, done_dir))
+            raise cli.BadInput(
+                [
+                    f"--cluster {args.cluster}: the sweep failed ({exc}); {kept} of "
+                    f"{len(study.points)} points kept in {done_dir}; run the same command "
+                    "again to resume"
+                ]
+            ) from None
         raise
     protect = [args.study, str(study.base_path)]
     with ui.status("writing the report"):

@@ -649,3 +649,130 @@ def test_bad_yaml_and_missing_study_file(plant, tmp_path, capsys):
         (plant / "list.yaml").write_text("- 1\n")
         load_study(plant / "list.yaml")
     assert not (tmp_path / "o").exists()
+
+
+# ---------------------------------------------------------------------------
+# The sweep command: cluster, unreachable cluster, resume and --restart
+# ---------------------------------------------------------------------------
+
+
+def sweep_command(capsys, study: Path, out: Path, cache: Path, *options: str):
+    """``corepace sweep`` through the command's entry point: (code, stdout, stderr, table)."""
+    from optimizer import cli
+
+    argv = ["sweep", str(study), "--out", str(out), "--cache-dir", str(cache), *options]
+    code = cli.main(argv)
+    captured = capsys.readouterr()
+    table = pd.read_csv(out / "sweep.csv") if (out / "sweep.csv").exists() else None
+    return code, captured.out, captured.err, table
+
+
+@pytest.fixture(scope="module")
+def serial_command_table(small_grid, cache, tmp_path_factory):
+    """The small grid's sweep.csv from ``corepace sweep --serial``, read back."""
+    from optimizer import cli
+
+    out = tmp_path_factory.mktemp("serial-command")
+    argv = ["sweep", str(small_grid.path), "--out", str(out), "--cache-dir", str(cache)]
+    assert cli.main([*argv, "--serial", "--quiet"]) == 0
+    table = pd.read_csv(out / "sweep.csv")
+    assert len(table) == len(small_grid.points) == 4
+    assert (table["status"] == "optimal").all()
+    return table
+
+
+def test_sweep_command_on_a_dask_cluster_gives_the_serial_table(
+    small_grid, cache, serial_command_table, tmp_path, capsys
+):
+    distributed = pytest.importorskip("distributed")
+    out = tmp_path / "cluster"
+    with distributed.LocalCluster(
+        n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None
+    ) as cluster:
+        code, stdout, _, table = sweep_command(
+            capsys, small_grid.path, out, cache, "--cluster", cluster.scheduler_address, "--json"
+        )
+        # every point was planned on the cluster (the scheduler counts its finished tasks)
+        planned = cluster.scheduler.task_prefixes["evaluate_point"].state_counts["memory"]
+        assert planned == len(small_grid.points)
+    assert code == 0
+    pd.testing.assert_frame_equal(table, serial_command_table)
+    data = json.loads(stdout)
+    assert [r["point"] for r in data["tables"]["sweep"]] == list(serial_command_table["point"])
+    assert len(list((out / "points").glob("*.json"))) == len(small_grid.points)
+
+
+def test_unreachable_cluster_is_exit_2_one_line_nothing_written(
+    small_grid, tmp_path, capsys, monkeypatch
+):
+    pytest.importorskip("distributed")
+    # nothing listens on port 1 of the loopback; a short wait keeps the test light
+    monkeypatch.setattr(sweep, "CLUSTER_CONNECT_TIMEOUT_S", 1.0)
+    out = tmp_path / "out"
+    cache = tmp_path / "cache"
+    address = "tcp://127.0.0.1:1"
+    code, stdout, stderr, _ = sweep_command(
+        capsys, small_grid.path, out, cache, "--cluster", address
+    )
+    assert code == 2
+    lines = stderr.strip().splitlines()
+    assert len(lines) == 1, stderr
+    assert lines[0].startswith(f"--cluster {address}: cannot connect (")
+    assert "Traceback" not in stderr
+    assert stdout == ""
+    assert not out.exists() and not cache.exists()
+    assert sorted(p.name for p in tmp_path.iterdir()) == []
+    # a malformed address is refused the same way
+    code, _, stderr, _ = sweep_command(capsys, small_grid.path, out, cache, "--cluster", "nowhere")
+    assert code == 2
+    assert stderr.strip().splitlines() == [
+        "--cluster nowhere: cannot connect (missing port number in address 'nowhere')"
+    ]
+    assert not out.exists()
+
+
+def test_sweep_command_resumes_in_pool_mode_and_restarts(
+    small_grid, cache, serial_command_table, tmp_path, capsys
+):
+    out = tmp_path / "out"
+    points = out / "points"
+    # the first run in this process (a pool start is the slow part of a small sweep);
+    # the finished points it keeps do not depend on where they ran
+    code, stdout, _, first = sweep_command(capsys, small_grid.path, out, cache, "--serial")
+    assert code == 0
+    assert "resuming" not in stdout
+    pd.testing.assert_frame_equal(first, serial_command_table)
+    files = sorted(points.glob("*.json"))
+    assert [f.name[:5] for f in files] == ["00000", "00001", "00002", "00003"]
+
+    # an interrupted sweep: points 2 and 3 never finished
+    for f in files[2:]:
+        f.unlink()
+    kept = {f: (f.stat().st_ino, f.stat().st_mtime_ns, f.read_bytes()) for f in files[:2]}
+    # resumed in the default mode: the local process pool
+    code, stdout, _, resumed = sweep_command(capsys, small_grid.path, out, cache)
+    assert code == 0
+    assert f"resuming: 2 of 4 points done in {points}" in stdout
+    # the finished points were read back, not planned again (a new result would
+    # have replaced the file, giving it a new inode)
+    for f, before in kept.items():
+        assert (f.stat().st_ino, f.stat().st_mtime_ns, f.read_bytes()) == before
+    assert sorted(points.glob("*.json")) == files
+    pd.testing.assert_frame_equal(resumed, serial_command_table)
+
+    # a kept row altered by hand: a plain rerun (nothing left to plan) shows it,
+    # --restart forgets it and plans every point again (here in this process)
+    row = json.loads(files[0].read_text())
+    row["message"] = "kept from an earlier run"
+    files[0].write_text(json.dumps(row))
+    code, stdout, _, rerun = sweep_command(capsys, small_grid.path, out, cache)
+    assert code == 0
+    assert f"resuming: 4 of 4 points done in {points}" in stdout
+    assert list(rerun["message"].fillna("")) == ["kept from an earlier run", "", "", ""]
+    code, stdout, _, restarted = sweep_command(
+        capsys, small_grid.path, out, cache, "--restart", "--serial"
+    )
+    assert code == 0
+    assert "resuming" not in stdout
+    pd.testing.assert_frame_equal(restarted, serial_command_table)
+    assert sorted(points.glob("*.json")) == files
