@@ -8,7 +8,6 @@ must not load anything from outside.
 
 from __future__ import annotations
 
-import base64
 import itertools
 import json
 import math
@@ -27,10 +26,12 @@ from optimizer.report import (
     RuleMark,
     Stage,
     TimelineBar,
+    figure_png,
     format_cell,
     temperature_figure,
     timeline_figure,
 )
+from tests._png import DRAWN_MIN, coloured_share, png_of_data_uri
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
@@ -162,12 +163,19 @@ def test_figures_are_embedded_pngs_and_nothing_is_loaded_from_outside():
     )
     reader = read_report(report.render())
     assert len(reader.images) == 2
+    # the same helpers with nothing to draw: axes, labels, grid and legend only
+    curves = _curves()
+    nothing = np.full_like(curves.core, np.nan)
+    blank_curves = CurveSet("test product", curves.time_min, nothing, nothing, (), ())
+    blanks = [
+        figure_png(temperature_figure(blank_curves)),
+        figure_png(timeline_figure([], title="shift 1", shift_minutes=480, machines=["oven A"])),
+    ]
+    assert max(coloured_share(png) for png in blanks) < DRAWN_MIN
     for image in reader.images:
-        src = image["src"]
-        assert src.startswith("data:image/png;base64,")
-        png = base64.b64decode(src.split(",", 1)[1])
+        png = png_of_data_uri(image["src"])
         assert png.startswith(PNG_MAGIC)
-        assert len(png) > 5000  # a drawn plot, not an empty canvas
+        assert coloured_share(png) >= DRAWN_MIN, image["alt"]  # data drawn, not empty axes
         assert image["alt"]
     assert reader.external == []
 
