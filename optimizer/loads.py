@@ -40,6 +40,10 @@ Rules used here (documented choices):
 * Within one (product, oven, setting, tunnel, tunnel setting) a loading
   option is dropped when another one is at least as fast and needs no more
   heat out (it is dominated).
+* A tunnel setting is dropped for a product when another setting of the same
+  tunnel is at least as fast from every oven and oven setting (and, for the
+  least-energy objective, takes out no more heat): tunnel runs and their
+  changeovers are per product and setting, so the swap never costs.
 """
 
 from __future__ import annotations
@@ -51,7 +55,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from optimizer.inputs import PlanInputs
+from optimizer.inputs import Objective, PlanInputs
 
 _KEY_SEP = "|"
 
@@ -328,6 +332,7 @@ def candidates(inputs: PlanInputs, mix_tolerance: float, max_mix_products: int) 
             or rt.rate_kg_per_min * prod.hot_hold_min >= m_max * (1 - 1e-9)
         ]
         routes.extend(_undominated(ok))
+    routes = _without_dominated_settings(routes, energy=inputs.objective is Objective.LEAST_ENERGY)
     routes.sort(key=lambda r: r.key)
 
     for p in planned:
@@ -380,6 +385,55 @@ def _undominated(routes: list[TunnelRoute]) -> list[TunnelRoute]:
                 break
         if not dominated:
             keep.append(a)
+    return keep
+
+
+def _without_dominated_settings(routes: list[TunnelRoute], *, energy: bool) -> list[TunnelRoute]:
+    """Drop a product's tunnel setting that another setting of the same tunnel beats.
+
+    Setting ``a`` of tunnel t beats setting ``b`` for product p when every
+    route of p at ``b`` has a route at ``a`` from the same oven and oven
+    setting that is at least as fast (and, when ``energy``, takes out no
+    more heat). Any plan that runs p at ``b`` can then run it at ``a``
+    instead in no more tunnel minutes and no more runs (changeovers are per
+    product and setting), so the optimum is unchanged. Between two settings
+    that beat each other the first by name is kept.
+    """
+    by_pt: dict[tuple[str, str], dict[str, list[TunnelRoute]]] = defaultdict(
+        lambda: defaultdict(list)
+    )
+    for r in routes:
+        by_pt[(r.product, r.tunnel)][r.tunnel_setting].append(r)
+
+    def beats(a: list[TunnelRoute], b: list[TunnelRoute]) -> bool:
+        best: dict[tuple[str, str, str], list[TunnelRoute]] = defaultdict(list)
+        for r in a:
+            best[r.source].append(r)
+        return all(
+            any(
+                x.rate_kg_per_min >= y.rate_kg_per_min
+                and (not energy or x.heat_out_kj_per_kg <= y.heat_out_kj_per_kg)
+                for x in best.get(y.source, ())
+            )
+            for y in b
+        )
+
+    keep: list[TunnelRoute] = []
+    for per_setting in by_pt.values():
+        names = sorted(per_setting)
+        dropped: set[str] = set()
+        for b in names:
+            for a in names:
+                if a == b or a in dropped:
+                    continue
+                if beats(per_setting[a], per_setting[b]) and (
+                    a < b or not beats(per_setting[b], per_setting[a])
+                ):
+                    dropped.add(b)
+                    break
+        for name in names:
+            if name not in dropped:
+                keep.extend(per_setting[name])
     return keep
 
 

@@ -313,3 +313,83 @@ def test_shift_pattern_pricing_matches_brute_force(seed):
     exact = sum(c * got.get(k, 0) for c, _v, k, _s in flat)
     nset = len({s for _c, _v, k, s in flat if got.get(k, 0)})
     assert exact + co * max(0, nset - 1) <= avail + 1e-9
+
+
+def _two_setting_line(colder_speed_mild: float, objective=None, heat_out_colder=250.0):
+    """Tunnel settings 'cold' and 'colder'; product A cooked at 'hot' and 'mild'.
+
+    From 'hot' the 'colder' setting runs the belt at 1.5 m/min against 1.0;
+    from 'mild' at ``colder_speed_mild`` against 1.0 at 'cold'.
+    """
+    from optimizer.inputs import Objective
+
+    rows = [
+        dwell_row(
+            "A", "oven-1", "hot", "tunnel-1", "colder", "full", 50.0, 1.5, heat_out=heat_out_colder
+        ),
+        dwell_row("A", "oven-1", "mild", "tunnel-1", "cold", "full", 70.0, 1.0),
+        dwell_row(
+            "A",
+            "oven-1",
+            "mild",
+            "tunnel-1",
+            "colder",
+            "full",
+            70.0,
+            colder_speed_mild,
+            heat_out=heat_out_colder,
+        ),
+    ]
+    base = one_line(
+        extra_rows=rows,
+        objective=objective or Objective.MOST_KG,
+        fixed_output_kg=100.0 if objective is Objective.LEAST_ENERGY else None,
+    )
+    tunnel = TunnelData(
+        "tunnel-1", 20.0, 1.0, 0.05, 5.0, ("cold", "colder"), (LoadingOption("full", 1.0),), 10.0
+    )
+    return PlanInputs(
+        base.ovens,
+        (tunnel,),
+        base.products,
+        base.shifts,
+        base.orders,
+        base.dwell,
+        base.objective,
+        base.fixed_output_kg,
+    )
+
+
+def test_tunnel_setting_beaten_from_every_source_is_pruned():
+    # 'colder' is faster than 'cold' from both 'hot' (1.5 > 1.0) and 'mild' (1.2 > 1.0).
+    inp = _two_setting_line(1.2)
+    assert {r.tunnel_setting for r in candidates(inp, 0.15, 2).routes} == {"colder"}
+    # From 'mild' 'colder' is slower (0.8 < 1.0): neither setting beats the other.
+    inp = _two_setting_line(0.8)
+    assert {r.tunnel_setting for r in candidates(inp, 0.15, 2).routes} == {"cold", "colder"}
+
+
+def test_setting_pruning_keeps_heat_out_for_least_energy():
+    from optimizer.inputs import Objective
+
+    # Faster but takes out more heat: pruned for most kg, kept for least energy.
+    inp = _two_setting_line(1.2, heat_out_colder=400.0)
+    assert {r.tunnel_setting for r in candidates(inp, 0.15, 2).routes} == {"colder"}
+    inp = _two_setting_line(1.2, objective=Objective.LEAST_ENERGY, heat_out_colder=400.0)
+    assert {r.tunnel_setting for r in candidates(inp, 0.15, 2).routes} == {"cold", "colder"}
+
+
+def test_setting_pruning_leaves_the_optimum_unchanged():
+    # Solve with and without the pruning: the same best kg (most kg objective).
+    from optimizer import loads
+    from optimizer.solve import plan
+
+    inp = _two_setting_line(1.2)
+    pruned = plan(inp, SolveOptions(shadow_prices=False))
+    original = loads._without_dominated_settings
+    try:
+        loads._without_dominated_settings = lambda routes, *, energy: routes
+        whole = plan(inp, SolveOptions(shadow_prices=False))
+    finally:
+        loads._without_dominated_settings = original
+    assert pruned.objective_value == pytest.approx(whole.objective_value, rel=1e-9)
