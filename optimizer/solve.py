@@ -5,11 +5,10 @@
 shadow prices of machine time, or - without one - the elastic re-solve that
 names the smallest shortfalls.
 
-Compact formulation (default): the MILP is solved in two stages, first with
-single-product loads only (at most ``SINGLES_STAGE_SHARE`` of the time
-limit), then with every load, warm-started from the first plan: mixed loads
-add many near-equal alternatives and the start keeps the search from doing
-worse than the singles-only plan.
+Compact formulation (default): the MILP is started from the better of two
+quick restricted solves - single-product loads only, and the support of the
+LP relaxation (every integer variable the LP leaves at zero held there) -
+and then solved whole; its status, gap and bound are the ones reported.
 
 Pattern formulation (``SolveOptions.formulation = "patterns"``): oven-shift
 patterns are generated on the LP (duals of the flow rows give the value of
@@ -89,6 +88,18 @@ class _HighsWithStart(pulp.HiGHS):
             lp.solverModel.setSolution(sol)
         lp.solverModel.run()
 
+    def findSolutionValues(self, lp):  # PuLP hook name
+        # PuLP 3.3 has no entry for a node limit (mip_max_nodes): it has set the
+        # values before failing on the lookup, so read that stop like a time limit.
+        try:
+            return super().findSolutionValues(lp)
+        except KeyError:
+            if lp.solverModel.getModelStatus() != highspy.HighsModelStatus.kSolutionLimit:
+                raise
+            if lp.solverModel.getInfo().primal_solution_status == 2:  # feasible
+                return pulp.LpStatusOptimal, pulp.LpSolutionIntegerFeasible
+            return pulp.LpStatusNotSolved, pulp.LpSolutionNoSolutionFound
+
 
 def _solver(
     name: str,
@@ -97,9 +108,11 @@ def _solver(
     mip: bool = True,
     time_limit: float | None = None,
     start: bool = False,
+    max_nodes: int | None = None,
 ):
     limit = options.time_limit_s if time_limit is None else time_limit
     if name == "highs":
+        extra = {} if max_nodes is None else {"mip_max_nodes": int(max_nodes)}
         return _HighsWithStart(
             mip=mip,
             msg=options.msg,
@@ -108,6 +121,7 @@ def _solver(
             threads=options.threads,
             random_seed=0,
             start=start,
+            **extra,
         )
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DeprecationWarning)
@@ -118,6 +132,7 @@ def _solver(
             gapRel=options.gap_rel,
             threads=1,
             warmStart=start,
+            options=[] if max_nodes is None else [f"maxNodes {int(max_nodes)}"],
         )
 
 
@@ -129,6 +144,7 @@ def _run(
     mip: bool = True,
     time_limit: float | None = None,
     start: bool = False,
+    max_nodes: int | None = None,
 ):
     """Solve ``prob``; return (status, gap, bound (min form), seconds, message)."""
     t0 = time.perf_counter()
@@ -136,7 +152,9 @@ def _run(
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", DeprecationWarning)
-            prob.solve(_solver(name, options, mip=mip, time_limit=limit, start=start))
+            prob.solve(
+                _solver(name, options, mip=mip, time_limit=limit, start=start, max_nodes=max_nodes)
+            )
     except Exception as exc:  # solver crash: report, let the caller fall back
         return SolveStatus.ERROR, None, None, time.perf_counter() - t0, f"{name}: {exc}"
     dt = time.perf_counter() - t0
@@ -171,9 +189,14 @@ def _set_relaxed(model: PlanModel, relaxed: bool) -> None:
 def _generate_columns(
     model: PlanModel, inputs: PlanInputs, cand: Candidates, options: SolveOptions, solver: str
 ) -> tuple[int, list[str]]:
-    """Column generation for mixed loads on the LP relaxation; returns (rounds, notes)."""
+    """Column generation for mixed loads on the LP relaxation.
+
+    Returns (rounds, notes, whether the variable values are the optimum of
+    the LP relaxation of the model as it now stands).
+    """
     notes = []
     rounds = 0
+    converged = False
     for _ in range(MAX_PRICING_ROUNDS):
         _set_relaxed(model, True)
         status, *_ = _run(model.prob, solver, options, mip=False)
@@ -202,9 +225,10 @@ def _generate_columns(
         )
         added = sum(model.add_load(load) for _, load in priced)
         if added == 0:
+            converged = True
             break
     _set_relaxed(model, False)
-    return rounds, notes
+    return rounds, notes, converged
 
 
 def _extract(model: PlanModel):
@@ -639,31 +663,96 @@ def _extract_patterns(model: PlanModel):
     return tuple(batches), runs, tuple(use), chosen
 
 
-SINGLES_STAGE_SHARE = 0.3
+SINGLES_STAGE_SHARE = 0.15
 """Share of the time limit the singles-only first stage may use [-]."""
 
+SINGLES_STAGE_NODES = 100
+"""Most branch-and-bound nodes of the singles-only first stage [-]."""
 
-def _staged_solve(model: PlanModel, solver: str, options: SolveOptions):
-    """Solve with single-product loads first, then all loads from that start.
+SUPPORT_STAGE_SHARE = 0.25
+"""Share of the time limit the LP-support first stage may use [-]."""
 
-    Mixed loads add many near-equal alternatives; the singles-only plan is
-    found fast and hands the full MILP a good incumbent.
+
+def _restricted_plan(
+    model: PlanModel,
+    solver: str,
+    options: SolveOptions,
+    fixed: list,
+    time_limit: float,
+    max_nodes: int | None = None,
+) -> tuple[float, dict] | None:
+    """Solve the MILP with the variables ``fixed`` held at zero.
+
+    Returns (objective, variable values) of its plan, or None without one.
+    Bounds are restored whatever happens.
     """
-    mixed_n = [v for (lk, _s), v in model.n.items() if model.loads[lk].is_mixed]
-    if not mixed_n:
-        return _run(model.prob, solver, options)
-    saved = [(v, v.upBound) for v in mixed_n]
-    for v in mixed_n:
+    saved = [(v, v.upBound) for v in fixed]
+    for v in fixed:
         v.upBound = 0
-    limit1 = SINGLES_STAGE_SHARE * options.time_limit_s
-    st1, _g, _b, dt1, _m = _run(model.prob, solver, options, time_limit=limit1)
-    for v, ub in saved:
-        v.upBound = ub
-    rest = max(options.time_limit_s - dt1, 0.1 * options.time_limit_s)
-    status, gap, bound, dt2, msg = _run(
-        model.prob, solver, options, time_limit=rest, start=st1.has_plan
+    try:
+        st, *_ = _run(model.prob, solver, options, time_limit=time_limit, max_nodes=max_nodes)
+    finally:
+        for v, ub in saved:
+            v.upBound = ub
+    if not st.has_plan:
+        return None
+    values = {v.name: v.varValue for v in model.prob.variables()}
+    return float(model.prob.objective.value()), values
+
+
+def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_current: bool):
+    """Solve the MILP from the best of two quick starts.
+
+    * Singles: every mixed load held at zero, at most ``SINGLES_STAGE_SHARE``
+      of the time limit and ``SINGLES_STAGE_NODES`` nodes (so a plant whose
+      orders need mixed loads does not spend long proving the singles-only
+      model infeasible). With it the full plan is never worse than the
+      singles-only plan found.
+    * LP support: every integer variable the LP relaxation leaves at zero
+      held at zero, a much smaller MILP (at most ``SUPPORT_STAGE_SHARE``).
+      On large plants, where the solver's own heuristics stall at the root,
+      this start is most of the plan quality.
+
+    The better plan starts the full MILP, whose status, gap and bound are
+    the ones reported.
+
+    Parameters
+    ----------
+    lp_current : bool
+        The variable values are already the LP relaxation's optimum (the
+        last column-generation round), so it is not solved again.
+    """
+    t0 = time.perf_counter()
+    limit = options.time_limit_s
+    starts = []
+    mixed_n = [v for (lk, _s), v in model.n.items() if model.loads[lk].is_mixed]
+    ints = model.integer_vars
+    idle = []
+    if not lp_current:
+        _set_relaxed(model, True)
+        st, *_ = _run(model.prob, solver, options, mip=False)
+        _set_relaxed(model, False)
+        lp_current = st is SolveStatus.OPTIMAL
+    if lp_current:
+        idle = [v for v in ints if abs(v.varValue or 0.0) <= 1e-9]
+    if mixed_n:
+        starts.append(
+            _restricted_plan(
+                model, solver, options, mixed_n, SINGLES_STAGE_SHARE * limit, SINGLES_STAGE_NODES
+            )
+        )
+    if idle and len(idle) < len(ints):
+        starts.append(_restricted_plan(model, solver, options, idle, SUPPORT_STAGE_SHARE * limit))
+    found = [x for x in starts if x is not None]
+    if found:
+        _obj, values = min(found, key=lambda x: x[0])
+        for v in model.prob.variables():
+            v.varValue = values.get(v.name)
+    rest = max(limit - (time.perf_counter() - t0), 0.1 * limit)
+    status, gap, bound, _dt, msg = _run(
+        model.prob, solver, options, time_limit=rest, start=bool(found)
     )
-    return status, gap, bound, dt1 + dt2, msg
+    return status, gap, bound, time.perf_counter() - t0, msg
 
 
 def _compact_solve(inputs: PlanInputs, cand: Candidates, options: SolveOptions, notes: list):
@@ -681,15 +770,16 @@ def _compact_solve(inputs: PlanInputs, cand: Candidates, options: SolveOptions, 
     build_s = time.perf_counter() - t0
     rounds = 0
     solve_s = 0.0
+    lp_current = False
     if use_cg:
         tc = time.perf_counter()
-        rounds, cg_notes = _generate_columns(model, inputs, cand, options, first)
+        rounds, cg_notes, lp_current = _generate_columns(model, inputs, cand, options, first)
         notes.extend(cg_notes)
         solve_s += time.perf_counter() - tc
     # Column generation counts against the time limit.
     left = max(options.time_limit_s - solve_s, 0.2 * options.time_limit_s)
     status, gap, bound, dt, msg = _staged_solve(
-        model, first, dataclasses.replace(options, time_limit_s=left)
+        model, first, dataclasses.replace(options, time_limit_s=left), lp_current=lp_current
     )
     solve_s += dt
     used = first
