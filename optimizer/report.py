@@ -1234,6 +1234,9 @@ def plan_report(
                 labels=COLUMN_LABELS,
                 part=shift,
             )
+            if not timelines.get(shift):
+                report.paragraph("Nothing is planned on any machine in this shift.")
+                continue
             report.figure(
                 timeline_figure(
                     timelines.get(shift, []),
