@@ -43,8 +43,10 @@ import argparse
 import hashlib
 import json
 import os
+import re
 import sys
 import time
+import warnings
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -1981,8 +1983,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     args.argv_text = _argv_text(argv)
     ui = Ui(quiet=args.quiet, json_mode=args.json)
     start = time.perf_counter()
+    extrapolated: dict[str, int] = {}
     try:
-        code = args.func(args, ui)
+        with _validity_notes(extrapolated):
+            code = args.func(args, ui)
     except BadInput as exc:
         for line in exc.problems:
             ui.problem(line)
@@ -2004,9 +2008,37 @@ def main(argv: Sequence[str] | None = None) -> int:
             f"corepace: internal error: {type(exc).__name__}: {exc} (run with --debug for details)"
         )
         return EXIT_INTERNAL
+    if not ui.json_mode and not ui.quiet:
+        for text, count in sorted(extrapolated.items()):
+            ui.problem(f"note: {text} ({count} case{'s' if count > 1 else ''})")
     if not ui.json_mode and not ui.quiet and args.command != "schema":
         ui.console.print(f"[dim]done in {time.perf_counter() - start:.1f} s[/dim]")
     return code
+
+
+@contextmanager
+def _validity_notes(counts: dict[str, int]) -> Iterator[None]:
+    """Collect the physics' out-of-range warnings as one note per kind.
+
+    A correlation used outside its validity range warns once per case with
+    the value; a person needs the kind and how often, not a line per cell.
+    Other warnings are shown as usual.
+    """
+    from thermal.errors import ValidityWarning
+
+    shown = warnings.showwarning
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        if issubclass(category, ValidityWarning):
+            text = re.sub(r" = [-+0-9.eE]+", "", str(message))
+            counts[text] = counts.get(text, 0) + 1
+        else:
+            shown(message, category, filename, lineno, file, line)
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("always", ValidityWarning)
+        warnings.showwarning = show
+        yield
 
 
 def _input_error(exc: Exception) -> list[str] | None:

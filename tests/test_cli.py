@@ -748,3 +748,21 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
             assert verdict.met, (
                 f"{run.tunnel} {run.shift} {run.product} wait {wait} min: {verdict.reason}"
             )
+
+
+def test_out_of_range_warnings_become_one_note_per_kind():
+    import warnings
+
+    from optimizer.cli import _validity_notes
+    from thermal.errors import ValidityWarning
+
+    counts: dict[str, int] = {}
+    with _validity_notes(counts), pytest.warns(UserWarning, match="other"):
+        warnings.warn(
+            "Whitaker sphere: mu/mu_s = 0.93 outside [1, 3.2]", ValidityWarning, stacklevel=1
+        )
+        warnings.warn(
+            "Whitaker sphere: mu/mu_s = 0.89 outside [1, 3.2]", ValidityWarning, stacklevel=1
+        )
+        warnings.warn("other", UserWarning, stacklevel=1)  # not ours: shown as usual
+    assert counts == {"Whitaker sphere: mu/mu_s outside [1, 3.2]": 2}
