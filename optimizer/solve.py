@@ -5,10 +5,11 @@
 shadow prices of machine time, or - without one - the elastic re-solve that
 names the smallest shortfalls.
 
-Compact formulation (default): the MILP is started from the better of two
-quick restricted solves - single-product loads only, and the support of the
-LP relaxation (every integer variable the LP leaves at zero held there) -
-and then solved whole; its status, gap and bound are the ones reported.
+Compact formulation (default): the MILP is started from the plan of a
+smaller MILP on the support of the LP relaxation (every integer variable the
+LP leaves at zero held there), then solved whole; its status, gap and bound
+are the ones reported. When that does not prove optimality and the plan
+could be bettered by single-product loads alone, the better plan is kept.
 
 Pattern formulation (``SolveOptions.formulation = "patterns"``): oven-shift
 patterns are generated on the LP (duals of the flow rows give the value of
@@ -701,20 +702,20 @@ def _restricted_plan(
 
 
 def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_current: bool):
-    """Solve the MILP from the best of two quick starts.
+    """Solve the MILP from an LP-support start, with a singles-only safety net.
 
-    * Singles: every mixed load held at zero, at most ``SINGLES_STAGE_SHARE``
-      of the time limit and ``SINGLES_STAGE_NODES`` nodes (so a plant whose
-      orders need mixed loads does not spend long proving the singles-only
-      model infeasible). With it the full plan is never worse than the
-      singles-only plan found.
-    * LP support: every integer variable the LP relaxation leaves at zero
-      held at zero, a much smaller MILP (at most ``SUPPORT_STAGE_SHARE``).
-      On large plants, where the solver's own heuristics stall at the root,
-      this start is most of the plan quality.
-
-    The better plan starts the full MILP, whose status, gap and bound are
-    the ones reported.
+    1. LP support: every integer variable the LP relaxation leaves at zero
+       is held at zero and the much smaller MILP that remains is solved (at
+       most ``SUPPORT_STAGE_SHARE`` of the time limit); its plan starts the
+       full MILP. On large plants, where the solver's own heuristics stall
+       at the root, this start is most of the plan quality.
+    2. The full MILP, keeping ``SINGLES_STAGE_SHARE`` of the time limit in
+       reserve when there are mixed loads.
+    3. Only when step 2 did not prove its plan optimal: the MILP with every
+       mixed load held at zero (the reserve, at most ``SINGLES_STAGE_NODES``
+       nodes). If that plan is better it is the one returned, with step 2's
+       bound, so allowing mixed loads never gives a worse plan than the
+       singles-only search found.
 
     Parameters
     ----------
@@ -724,34 +725,43 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
     """
     t0 = time.perf_counter()
     limit = options.time_limit_s
-    starts = []
     mixed_n = [v for (lk, _s), v in model.n.items() if model.loads[lk].is_mixed]
     ints = model.integer_vars
-    idle = []
     if not lp_current:
         _set_relaxed(model, True)
         st, *_ = _run(model.prob, solver, options, mip=False)
         _set_relaxed(model, False)
         lp_current = st is SolveStatus.OPTIMAL
-    if lp_current:
-        idle = [v for v in ints if abs(v.varValue or 0.0) <= 1e-9]
-    if mixed_n:
-        starts.append(
-            _restricted_plan(
-                model, solver, options, mixed_n, SINGLES_STAGE_SHARE * limit, SINGLES_STAGE_NODES
-            )
-        )
+    idle = [v for v in ints if abs(v.varValue or 0.0) <= 1e-9] if lp_current else []
+    start = None
     if idle and len(idle) < len(ints):
-        starts.append(_restricted_plan(model, solver, options, idle, SUPPORT_STAGE_SHARE * limit))
-    found = [x for x in starts if x is not None]
-    if found:
-        _obj, values = min(found, key=lambda x: x[0])
+        start = _restricted_plan(model, solver, options, idle, SUPPORT_STAGE_SHARE * limit)
+    if start is not None:
         for v in model.prob.variables():
-            v.varValue = values.get(v.name)
-    rest = max(limit - (time.perf_counter() - t0), 0.1 * limit)
+            v.varValue = start[1].get(v.name)
+    reserve = SINGLES_STAGE_SHARE * limit if mixed_n else 0.0
+    rest = max(limit - reserve - (time.perf_counter() - t0), 0.1 * limit)
     status, gap, bound, _dt, msg = _run(
-        model.prob, solver, options, time_limit=rest, start=bool(found)
+        model.prob, solver, options, time_limit=rest, start=start is not None
     )
+    if mixed_n and status is not SolveStatus.OPTIMAL and status is not SolveStatus.INFEASIBLE:
+        best = None
+        if status.has_plan:
+            best = (
+                float(model.prob.objective.value()),
+                {v.name: v.varValue for v in model.prob.variables()},
+            )
+        singles = _restricted_plan(
+            model, solver, options, mixed_n, max(reserve, 0.05 * limit), SINGLES_STAGE_NODES
+        )
+        if singles is not None and (best is None or singles[0] < best[0] - 1e-9):
+            best = singles
+            status = SolveStatus.FEASIBLE_WITH_GAP
+            if bound is not None:
+                gap = max(0.0, best[0] - bound) / max(abs(best[0]), 1e-9)
+        if best is not None:
+            for v in model.prob.variables():
+                v.varValue = best[1].get(v.name)
     return status, gap, bound, time.perf_counter() - t0, msg
 
 
