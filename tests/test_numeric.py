@@ -168,6 +168,39 @@ def test_core_matches_exact_series(kind, dirs, n, dt):
     assert res.heat_in[0] == pytest.approx(heat_ref, rel=1e-3)
 
 
+@pytest.mark.parametrize(("kind", "dirs", "n", "dt"), CASES, ids=[c[0] for c in CASES])
+def test_adaptive_steps_match_exact_series_in_fewer_steps(kind, dirs, n, dt):
+    # Source: exact series as above; adaptive steps (step doubling) held to
+    # 0.02 K per step keep the core within the project's 0.05 K of it, with
+    # a cooling segment after the heating one (a jump the control must catch).
+    segs = [Segment(3600.0, TAIR, H), Segment(1800.0, T0, H)]
+    shape = Shape(kind, *dirs)
+    fixed = simulate(shape, PROPS, T0, segs, n_cells=n, dt=dt)
+    res = simulate(shape, PROPS, T0, segs, n_cells=n, dt=dt, step_tolerance=0.02)
+    t = res.times[0]
+    first = t <= 3600.0
+    assert np.abs(res.core[0, first][1:] - _product_series(dirs, t[first][1:])).max() < 0.05
+    # the second segment starts from the first one's profile: compare with the fixed run
+    t_fixed = fixed.times[0]
+    core_fixed = np.interp(t[~first], t_fixed, fixed.core[0])
+    assert np.abs(res.core[0, ~first] - core_fixed).max() < 0.05
+    assert res.times.shape[1] < fixed.times.shape[1]
+    assert t[res.segment_end[0]] == pytest.approx(3600.0, abs=1e-9)
+    assert t[-1] == pytest.approx(5400.0, abs=1e-9)
+    # heat in per kg against the exact mean at the end of heating (0.1 %)
+    mean_ref = _product_series(dirs, np.array([3600.0]), which="mean")[0]
+    assert res.heat_in_segments[0, 0] == pytest.approx(PROPS.cp * (mean_ref - T0), rel=1e-3)
+
+
+def test_adaptive_steps_shrink_when_the_tolerance_is_tighter():
+    segs = [Segment(1800.0, TAIR, H)]
+    counts = [
+        simulate(SLAB, PROPS, T0, segs, n_cells=24, dt=30.0, step_tolerance=tol).times.shape[1]
+        for tol in (0.1, 0.01, 0.001)
+    ]
+    assert counts[0] < counts[1] < counts[2]
+
+
 def test_surface_temperature_matches_series_slab():
     # Source: exact series at x/L = 1 (Incropera et al., ch. 5).
     L = 0.02
@@ -409,6 +442,9 @@ SLAB = Shape("slab", ("slab", 0.02))
         ({"geometry": Shape("slab", ("slab", -1.0))}, "geometry[0]"),
         ({"geometry": [SLAB, Shape("sphere", ("sphere", 0.01))]}, "geometry[1]"),
         ({"scheme": "rk4"}, "scheme"),
+        ({"step_tolerance": 0.0}, "step_tolerance"),
+        ({"step_tolerance": float("nan")}, "step_tolerance"),
+        ({"step_tolerance": 0.01, "scheme": "euler"}, "step_tolerance"),
     ],
 )
 def test_bad_input_names_the_argument(kwargs, name):

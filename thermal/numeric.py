@@ -62,8 +62,18 @@ conserving (a linear combination of conservative steps), but not strictly
 monotone (undershoots of order 1e-3 K can appear just after a jump of the
 air temperature). ``scheme="euler"`` is plain backward Euler: first order,
 monotone, a third of the work per step. Every segment starts with graded
-sub-steps (1/8, 1/8, 1/4, 1/2 of a step) because the surface conditions jump
+sub-steps (from 1/64 up to 1/2 of a step) because the surface conditions jump
 there. Space is second order throughout.
+
+*Adaptive steps* (``step_tolerance``, extrapolated scheme): the difference
+between the full step and the two half steps is the classic step-doubling
+estimate of the local error of backward Euler [5]; its largest value over
+every cell and member must stay below ``step_tolerance`` [K], else the step
+is repeated shorter. The next step is ``0.9 (tol / est)^(1/2)`` times this
+one (between 0.2 and 2 times). Steps stay the same fraction of each
+member's segment for the whole batch, so one member with fast changes sets
+the pace; after a jump of the air conditions the steps start small and grow
+as the profile smooths, which is where most of the work is saved.
 
 *Several directions.* Finite cylinders and blocks use locally one-dimensional
 (LOD) splitting: each step performs one implicit enthalpy sub-step per
@@ -124,6 +134,9 @@ _CENTRE_WEIGHTS = (9.0 / 8.0, -1.0 / 8.0)
 _SHAPES_1D = ("slab", "cylinder", "sphere")
 _DEFAULT_CELLS = {1: 32, 2: 24, 3: 20}
 _START_FRACTIONS = [1 / 64, 1 / 64, 1 / 32, 1 / 16, 1 / 8, 1 / 4, 1 / 2]
+_MIN_STEP_FRACTION = 1e-6
+"""Adaptive steps: shortest step, as a fraction of the fixed step ``dt``, below
+which a step is accepted whatever its error estimate [-]."""
 
 
 class SolverConvergenceError(RuntimeError):
@@ -812,6 +825,7 @@ def simulate(
     max_iterations: int = 50,
     table_step: float = 0.1,
     scheme: str = "extrapolated",
+    step_tolerance: float | None = None,
 ) -> SimulationResult:
     """Simulate a batch of products through a schedule of surface conditions.
 
@@ -858,6 +872,14 @@ def simulate(
         Iterations allowed per step before SolverConvergenceError.
     table_step : float
         Temperature step of the property tables [K].
+    step_tolerance : float, optional
+        Adaptive time steps (extrapolated scheme only): the largest change
+        any cell of any member may show between one step and two half steps
+        (the step-doubling estimate of the first-order local error) [K].
+        Steps, the same fraction of each member's segment for every member,
+        grow or shrink to meet it; a step that misses it is repeated
+        shorter. ``dt`` then sets the first step of each segment (cut into
+        the graded start). Default None: fixed steps.
 
     Returns
     -------
@@ -898,6 +920,14 @@ def simulate(
         raise ThermalInputError(f"scheme: must be 'extrapolated' or 'euler', got {scheme!r}")
     if not (np.isfinite(table_step) and table_step > 0):
         raise ThermalInputError(f"table_step: must be > 0 K, got {table_step!r}")
+    if step_tolerance is not None:
+        if not (np.isfinite(step_tolerance) and step_tolerance > 0):
+            raise ThermalInputError(f"step_tolerance: must be > 0 K, got {step_tolerance!r}")
+        if scheme != "extrapolated":
+            raise ThermalInputError(
+                "step_tolerance: adaptive steps need scheme='extrapolated' "
+                "(the step-doubling estimate), got scheme='euler'"
+            )
 
     # ---- initial state and grid
     carried_density = None
@@ -1000,7 +1030,6 @@ def simulate(
     # each segment starts with graded sub-steps (1/8, 1/8, 1/4, 1/2 of a step)
     # because the surface conditions jump there and the solution is least smooth
     fractions = [np.array(_START_FRACTIONS + [1.0] * (n - 1)) for n in steps]
-    n_steps = int(sum(f.size for f in fractions))
 
     # ---- profile recording
     req = None
@@ -1034,24 +1063,24 @@ def simulate(
     face_t = [g.copy() for g in ts_guess]
 
     shortest = np.argmin(lengths, axis=1)  # per member: the face nearest the centre
-    n_times = n_steps + 1
-    times = np.zeros((batch, n_times))
-    core = np.empty((batch, n_times))
-    surf = np.empty((batch, n_times))
-    smin = np.empty((batch, n_times))
-    smax = np.empty((batch, n_times))
-    mean = np.empty((batch, n_times))
+    times: list[NDArray[np.float64]] = []
+    core: list[NDArray[np.float64]] = []
+    surf: list[NDArray[np.float64]] = []
+    smin: list[NDArray[np.float64]] = []
+    smax: list[NDArray[np.float64]] = []
+    mean: list[NDArray[np.float64]] = []
 
-    def record(col: int) -> None:
-        core[:, col] = _extrapolate_centre(t_state, range(1, ndim + 1))
-        mean[:, col] = (t_state * vol).reshape(batch, -1).sum(axis=1) / vol_sum
+    def record(t_now: NDArray[np.float64]) -> None:
+        times.append(t_now.copy())
+        core.append(_extrapolate_centre(t_state, range(1, ndim + 1)))
+        mean.append((t_state * vol).reshape(batch, -1).sum(axis=1) / vol_sum)
         if ndim == 1:
-            surf[:, col] = face_t[0]
+            surf.append(face_t[0].copy())
         else:
             mids = np.stack([_extrapolate_centre(f, range(1, ndim)) for f in face_t])
-            surf[:, col] = np.take_along_axis(mids, shortest[None, :], axis=0)[0]
-        smin[:, col] = np.min([x.reshape(batch, -1).min(axis=1) for x in face_t], axis=0)
-        smax[:, col] = np.max([x.reshape(batch, -1).max(axis=1) for x in face_t], axis=0)
+            surf.append(np.take_along_axis(mids, shortest[None, :], axis=0)[0])
+        smin.append(np.min([x.reshape(batch, -1).min(axis=1) for x in face_t], axis=0))
+        smax.append(np.max([x.reshape(batch, -1).max(axis=1) for x in face_t], axis=0))
 
     tid_line = tables.ids(tid_b.reshape((batch, *pad_other)))
     tid_full = tables.ids(tid_grid)
@@ -1079,30 +1108,51 @@ def simulate(
             t_in = np.ascontiguousarray(_from_line(t_new, d))
         return h_in, t_in, it_max
 
-    record(0)
+    t_elapsed = np.zeros(batch)
+    record(t_elapsed)
     heat_seg = np.empty((batch, len(segs)))
     seg_end = np.empty(len(segs), dtype=np.intp)
-    col = 0
-    t_elapsed = np.zeros(batch)
     max_it = 0
+    n_taken = 0  # accepted steps; alternates the LOD direction order
     rad_const = STEFAN_BOLTZMANN
     for i, (dur, t_air, h_coef, wall, eps) in enumerate(segs):
         h_start = mass_h(h_state)
-        base_step = dur / steps[i]
+        unit = 1.0 / steps[i]  # one full step as a fraction of the segment
         bc = tuple(
             x.reshape((batch, *pad_other))
             for x in (h_coef, t_air, eps * rad_const, (wall + _KELVIN) ** 4)
         )
-        for frac in fractions[i]:
-            step = base_step * frac
-            order = list(range(ndim)) if col % 2 == 0 else list(range(ndim - 1, -1, -1))
+        fixed = iter(fractions[i] * unit) if step_tolerance is None else None
+        done_frac = 0.0
+        next_frac = _START_FRACTIONS[0] * unit
+        while True:
+            if fixed is not None:
+                frac = next(fixed, None)
+                if frac is None:
+                    break
+            else:
+                left = 1.0 - done_frac
+                if left <= 1e-12:
+                    break
+                # no sliver of a step at the segment end
+                frac = left if next_frac > 0.9 * left else next_frac
+            step = dur * frac
+            order = list(range(ndim)) if n_taken % 2 == 0 else list(range(ndim - 1, -1, -1))
             t_prev = t_state
             if scheme == "euler":
                 h_state, t_state, it = advance(h_state, t_state, rho / step, bc, order)
             else:
-                h_c, _, it_c = advance(h_state, t_state, rho / step, bc, order)
+                h_c, t_c, it_c = advance(h_state, t_state, rho / step, bc, order)
                 h_f, t_f, it_f1 = advance(h_state, t_state, 2.0 * rho / step, bc, order)
-                h_f, _, it_f2 = advance(h_f, t_f, 2.0 * rho / step, bc, order)
+                h_f, t_f, it_f2 = advance(h_f, t_f, 2.0 * rho / step, bc, order)
+                if step_tolerance is not None:
+                    # step doubling: one step against two half steps [K]
+                    est = float(np.abs(t_f - t_c).max())
+                    grow = 0.9 * np.sqrt(step_tolerance / est) if est > 0 else 2.0
+                    if est > step_tolerance and frac > _MIN_STEP_FRACTION * unit:
+                        next_frac = frac * max(0.2, grow)
+                        continue
+                    next_frac = frac * min(2.0, max(0.2, grow))
                 h_state = 2.0 * h_f - h_c
                 t_state = tables.temperature(h_state, tid_full)
                 it = max(it_c, it_f1, it_f2)
@@ -1115,10 +1165,10 @@ def simulate(
                     tl[-1], lines[d].g_half * k_last, *bc[:2], bc[2], bc[3], ts_guess[d]
                 )
                 ts_guess[d] = face_t[d]
-            col += 1
+            n_taken += 1
+            done_frac += frac
             t_elapsed = t_elapsed + step
-            times[:, col] = t_elapsed
-            record(col)
+            record(t_elapsed)
             if req is not None:
                 t_lo = t_elapsed - step
                 hit = (req > t_lo[:, None]) & (req <= t_elapsed[:, None] * (1 + 1e-12)) & ~done
@@ -1130,17 +1180,17 @@ def simulate(
                     done |= hit
         # exact segment end time (avoid roundoff drift)
         t_elapsed = durations[:, : i + 1].sum(axis=1)
-        times[:, col] = t_elapsed
+        times[-1] = t_elapsed.copy()
         heat_seg[:, i] = mass_h(h_state) - h_start
-        seg_end[i] = col
+        seg_end[i] = len(times) - 1
 
     return SimulationResult(
-        times=times,
-        core=core,
-        surface=surf,
-        surface_min=smin,
-        surface_max=smax,
-        mean=mean,
+        times=np.stack(times, axis=1),
+        core=np.stack(core, axis=1),
+        surface=np.stack(surf, axis=1),
+        surface_min=np.stack(smin, axis=1),
+        surface_max=np.stack(smax, axis=1),
+        mean=np.stack(mean, axis=1),
         final=t_state,
         heat_in_segments=heat_seg,
         heat_in=heat_seg.sum(axis=1),
