@@ -120,8 +120,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+from numba import njit
 from numpy.typing import ArrayLike, NDArray
-from scipy.linalg.lapack import dgtsv
 
 from thermal._checks import ABSOLUTE_ZERO_C, as_float_array
 from thermal.errors import ThermalInputError
@@ -545,39 +545,6 @@ class _Members:
 
 
 # ---------------------------------------------------------------------------
-# linear algebra
-
-
-def _tridiagonal_solve(lower, diag, upper, rhs):
-    """Solve independent tridiagonal systems laid out along axis 0.
-
-    All lines are concatenated into one tridiagonal matrix (the couplings
-    between consecutive lines are zero) and solved in one call of LAPACK
-    ``dgtsv`` (Gaussian elimination with partial pivoting), so the cost is
-    linear in the number of cells with no Python loop over cells or lines.
-    ``lower[0]`` and ``upper[-1]`` of every line are ignored.
-    """
-    n = diag.shape[0]
-    up = np.moveaxis(upper, 0, -1).copy()
-    up[..., -1] = 0.0
-    lo = np.moveaxis(lower, 0, -1).copy()
-    lo[..., 0] = 0.0
-    _, _, _, x, info = dgtsv(
-        lo.ravel()[1:],
-        np.moveaxis(diag, 0, -1).ravel(),
-        up.ravel()[:-1],
-        np.moveaxis(rhs, 0, -1).ravel(),
-        overwrite_dl=True,
-        overwrite_d=True,
-        overwrite_du=True,
-        overwrite_b=True,
-    )
-    if info != 0:  # pragma: no cover - the matrices are diagonally dominant
-        raise SolverConvergenceError(f"tridiagonal solve failed (LAPACK dgtsv info={info})")
-    return np.moveaxis(x.reshape((*diag.shape[1:], n)), -1, 0)
-
-
-# ---------------------------------------------------------------------------
 # surface
 
 
@@ -624,6 +591,7 @@ class _Line:
         self.g_area = (area[:, 1:-1] / dx[:, None]).T.reshape((n - 1, batch, *pad))
         self.s_area = area[:, -1].reshape((batch, *pad))  # surface face area factor
         self.g_half = (2.0 / dx).reshape((batch, *pad))  # 1/(dx/2)
+        self.kernel_static: dict = {}  # the same, laid out for the line kernel
 
 
 def _to_line(x, d):
@@ -640,71 +608,267 @@ def _implicit_sweep(
     line: _Line,
     h_now,  # (n, B, ...) specific enthalpy at start of sub-step
     t_now,  # (n, B, ...) temperature consistent with h_now
-    tid,  # (B, 1, ...) table ids broadcastable to a line slice, or None
+    tid,  # _Members with per-line offsets (B, 1, ...), or None (one table)
     rho_over_dt,  # (B, ...) rho/dt
     bc,  # tuple(h, t_air, rad, t_wall_k4) each (B, ...)
     ts_guess,  # (B, ...)
     tolerance: float,
     max_iterations: int,
 ):
+    """One implicit enthalpy sub-step along every grid line of one direction.
+
+    Lays the lines side by side (``(n, L)``) with their per-line constants
+    (line-major) and runs the compiled line kernel :func:`_sweep_lines`; every line
+    iterates until its own residual is below ``tolerance``.
+    """
+    n = h_now.shape[0]
+    shape = h_now.shape
+    n_lines = int(np.prod(shape[1:]))
+    per_line = shape[1:]
+
+    def flat(x):
+        return np.ascontiguousarray(np.broadcast_to(x, per_line), dtype=float).ravel()
+
+    def cells(x, m):
+        # line-major (L, m): each line's cells contiguous for the kernel
+        return np.ascontiguousarray(
+            np.broadcast_to(x, (m, *per_line)).reshape(m, n_lines).T, dtype=float
+        )
+
     h_coef, t_air, rad, t_wall_k4 = bc
-    inf_h = np.isinf(h_coef)
-    hf = np.where(inf_h, 0.0, h_coef)
-    m = rho_over_dt * line.vol  # (n, B, ...)
-    tid_n = tid
-    t = t_now
-    h = h_now
-    ts = ts_guess
-    linear = tables.linear and not np.any(rad)
-    for it in range(max_iterations + 1):
-        slope, k = tables.slope_conductivity(t, tid_n)
-        k_face = 0.5 * (k[1:] + k[:-1])
-        g = line.g_area * k_face  # (n-1, B, ...)
-        g_s = line.g_half * k[-1]
-        ts = _surface_temperature(t[-1], g_s, h_coef, t_air, rad, t_wall_k4, ts)
-        # residual: m (H - Hn) - fluxes
-        flux = np.zeros_like(t)
-        cond = g * (t[1:] - t[:-1])
-        flux[:-1] += cond
-        flux[1:] -= cond
-        q_s = line.s_area * g_s * (ts - t[-1])
-        flux[-1] += q_s
-        # linear part
-        ht = hf + 4.0 * rad * (ts + _KELVIN) ** 3  # (B, ...)
-        diag = m * slope
-        diag[:-1] += g
-        diag[1:] += g
-        if it > 0:
-            resid = m * (h - h_now) - flux
-            err = np.abs(resid) / (diag + 0.0)
-            err[-1] = np.abs(resid[-1]) / (diag[-1] + line.s_area * g_s)
-            if float(err.max()) < tolerance:
-                return h, t, ts, it
-            if it == max_iterations:
-                raise SolverConvergenceError(
-                    f"implicit iteration did not converge in {max_iterations} iterations "
-                    f"(largest residual {float(err.max()):.3g} K); reduce dt"
-                )
-        # boundary: flux into last cell = frac*(q(ts) + ht ts) - U T_N
-        q0 = _surface_flux(ts, h_coef, t_air, rad, t_wall_k4)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            u = np.where(inf_h, g_s, g_s * ht / (g_s + ht))
-            frac = np.where(inf_h, 0.0, g_s / (g_s + ht))
-        rhs_s = np.where(inf_h, g_s * t_air, frac * (q0 + ht * ts))
-        diag[-1] += line.s_area * u
-        lower = np.zeros_like(t)
-        upper = np.zeros_like(t)
-        lower[1:] = -g
-        upper[:-1] = -g
-        rhs = m * (slope * t - h + h_now)
-        rhs[-1] += line.s_area * rhs_s
-        t_star = _tridiagonal_solve(lower, diag, upper, rhs)
-        h = h + slope * (t_star - t)
-        t = tables.temperature(h, tid_n)
-        if linear:
-            # constant cp and k, no radiation: the linear solve is the exact step
-            return h, t, _surface_temperature(t[-1], g_s, h_coef, t_air, rad, t_wall_k4, ts), 1
-    raise AssertionError("unreachable")  # pragma: no cover
+    key = (per_line, None if tid is None else id(tid))
+    static = line.kernel_static.get(key)
+    if static is None:
+        # per-line constants of this direction, laid out once per layout
+        if tid is None:
+            offsets = (
+                np.zeros(n_lines, dtype=np.intp),
+                np.zeros(n_lines, dtype=np.intp),
+                np.full(n_lines, tables.h0[0]),
+                np.full(n_lines, 1.0 / tables.dh[0]),
+            )
+        else:
+            offsets = (
+                np.ascontiguousarray(np.broadcast_to(tid.base, per_line)).ravel().astype(np.intp),
+                np.ascontiguousarray(np.broadcast_to(tid.base_q, per_line)).ravel().astype(np.intp),
+                flat(tid.h0),
+                flat(tid.inv_dh),
+            )
+        static = (
+            cells(line.vol, n),
+            cells(line.g_area, n - 1),
+            flat(line.s_area),
+            flat(line.g_half),
+            *offsets,
+        )
+        line.kernel_static = {key: static}
+    vol, g_area, s_area, g_half, base, base_q, h0, inv_dh = static
+    h_out = np.empty((n_lines, n))
+    t_out = np.empty((n_lines, n))
+    ts_out = np.empty(n_lines)
+    it = _sweep_lines(
+        cells(h_now, n),
+        cells(t_now, n),
+        vol * flat(rho_over_dt)[:, None],
+        g_area,
+        s_area,
+        g_half,
+        flat(h_coef),
+        flat(t_air),
+        flat(rad),
+        flat(t_wall_k4),
+        flat(ts_guess),
+        base,
+        base_q,
+        h0,
+        inv_dh,
+        tables.h_flat,
+        tables.k_flat,
+        tables.slope_flat,
+        tables.idx_flat,
+        float(tables.t0),
+        float(tables.dt),
+        int(tables.n),
+        int(tables.nq),
+        bool(tables.linear and not np.any(rad)),
+        float(tolerance),
+        int(max_iterations),
+        h_out,
+        t_out,
+        ts_out,
+    )
+    if it < 0:
+        raise SolverConvergenceError(
+            f"implicit iteration did not converge in {max_iterations} iterations; reduce dt"
+        )
+    return (
+        np.ascontiguousarray(h_out.T).reshape(shape),
+        np.ascontiguousarray(t_out.T).reshape(shape),
+        ts_out.reshape(per_line),
+        it,
+    )
+
+
+@njit(cache=True, error_model="numpy")
+def _sweep_lines(
+    h_now,
+    t_now,
+    m,
+    g_area,
+    s_area,
+    g_half,
+    h_coef,
+    t_air,
+    rad,
+    t_wall_k4,
+    ts_guess,
+    base,
+    base_q,
+    h0,
+    inv_dh,
+    h_tab,
+    k_tab,
+    slope_tab,
+    idx_tab,
+    t0,
+    dt,
+    n_tab,
+    nq,
+    linear,
+    tolerance,
+    max_iterations,
+    h_out,
+    t_out,
+    ts_out,
+):  # pragma: no cover - compiled; covered through simulate()
+    """Compiled implicit enthalpy iteration on independent lines ``(L, n)``.
+
+    The same steps as the method notes of this module: enthalpy
+    linearisation with lagged face conductivities, the face temperature by
+    Newton's method, a tridiagonal solve (Thomas algorithm; the matrix is
+    diagonally dominant) and the exact inverse of the H(T) table. Returns
+    the most iterations any line took, or -1 when a line did not converge.
+    """
+    n_lines, n = h_now.shape
+    slope = np.empty(n)
+    k = np.empty(n)
+    g = np.empty(n - 1)
+    diag = np.empty(n)
+    rhs = np.empty(n)
+    cp = np.empty(n)
+    h = np.empty(n)
+    t = np.empty(n)
+    worst = 0
+    for ln in range(n_lines):
+        for i in range(n):
+            h[i] = h_now[ln, i]
+            t[i] = t_now[ln, i]
+        hc = h_coef[ln]
+        inf_h = np.isinf(hc)
+        hf = 0.0 if inf_h else hc
+        ta = t_air[ln]
+        rd = rad[ln]
+        tw4 = t_wall_k4[ln]
+        ts = ts_guess[ln]
+        sa = s_area[ln]
+        b = base[ln]
+        done = False
+        it = 0
+        while not done:
+            # properties at the iterate
+            for i in range(n):
+                x = (t[i] - t0) / dt
+                xc = min(max(x, 0.0), n_tab - 2.0)
+                j = int(xc)
+                w = x - j
+                f = b + j
+                slope[i] = slope_tab[f]
+                k[i] = k_tab[f] + (k_tab[f + 1] - k_tab[f]) * w
+            for i in range(n - 1):
+                g[i] = g_area[ln, i] * 0.5 * (k[i + 1] + k[i])
+            g_s = g_half[ln] * k[n - 1]
+            # face temperature from the half-cell balance
+            if inf_h:
+                ts = ta
+            elif rd == 0.0:
+                ts = (g_s * t[n - 1] + hf * ta) / (g_s + hf)
+            else:
+                for _ in range(3):
+                    tk = ts + _KELVIN
+                    fs = g_s * (ts - t[n - 1]) - hf * (ta - ts) - rd * (tw4 - tk * tk * tk * tk)
+                    ts = ts - fs / (g_s + hf + 4.0 * rd * tk * tk * tk)
+            for i in range(n):
+                diag[i] = m[ln, i] * slope[i]
+            for i in range(n - 1):
+                diag[i] += g[i]
+                diag[i + 1] += g[i]
+            if it > 0:
+                err = 0.0
+                for i in range(n):
+                    flux = 0.0
+                    if i < n - 1:
+                        flux += g[i] * (t[i + 1] - t[i])
+                    if i > 0:
+                        flux -= g[i - 1] * (t[i] - t[i - 1])
+                    d = diag[i]
+                    if i == n - 1:
+                        flux += sa * g_s * (ts - t[i])
+                        d = d + sa * g_s
+                    r = abs(m[ln, i] * (h[i] - h_now[ln, i]) - flux) / d
+                    if r > err:
+                        err = r
+                if err < tolerance:
+                    break
+                if it == max_iterations:
+                    return -1
+            # linearised surface: flux into the last cell = frac (q0 + ht ts) - u T_N
+            tk = ts + _KELVIN
+            ht = hf + 4.0 * rd * tk * tk * tk
+            if inf_h:
+                u = g_s
+                rhs_s = g_s * ta
+            else:
+                q0 = hf * (ta - ts) + rd * (tw4 - tk * tk * tk * tk)
+                u = g_s * ht / (g_s + ht)
+                rhs_s = g_s / (g_s + ht) * (q0 + ht * ts)
+            diag[n - 1] += sa * u
+            for i in range(n):
+                rhs[i] = m[ln, i] * (slope[i] * t[i] - h[i] + h_now[ln, i])
+            rhs[n - 1] += sa * rhs_s
+            # Thomas algorithm: sub- and super-diagonals are -g
+            cp[0] = -g[0] / diag[0]
+            rhs[0] = rhs[0] / diag[0]
+            for i in range(1, n):
+                den = diag[i] + g[i - 1] * cp[i - 1]
+                if i < n - 1:
+                    cp[i] = -g[i] / den
+                rhs[i] = (rhs[i] + g[i - 1] * rhs[i - 1]) / den
+            for i in range(n - 2, -1, -1):
+                rhs[i] = rhs[i] - cp[i] * rhs[i + 1]
+            # enthalpy update and the exact inverse of the H(T) table
+            for i in range(n):
+                h[i] = h[i] + slope[i] * (rhs[i] - t[i])
+                x = (h[i] - h0[ln]) * inv_dh[ln]
+                q = int(min(max(x, 0.0), nq - 1.0))
+                f = idx_tab[base_q[ln] + q] + b
+                last = b + n_tab - 2
+                while f < last and h[i] >= h_tab[f + 1]:
+                    f += 1
+                t[i] = t0 + dt * (f - b) + (h[i] - h_tab[f]) / slope_tab[f]
+            it += 1
+            if linear:
+                # constant cp and k, no radiation: the linear solve is the exact step
+                k_last = k[n - 1]
+                g_s = g_half[ln] * k_last
+                ts = ta if inf_h else (g_s * t[n - 1] + hf * ta) / (g_s + hf)
+                done = True
+        if it > worst:
+            worst = it
+        for i in range(n):
+            h_out[ln, i] = h[i]
+            t_out[ln, i] = t[i]
+        ts_out[ln] = ts
+    return worst
 
 
 # ---------------------------------------------------------------------------
