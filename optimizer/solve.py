@@ -670,7 +670,7 @@ SINGLES_STAGE_SHARE = 0.15
 SINGLES_STAGE_NODES = 100
 """Most branch-and-bound nodes of the singles-only first stage [-]."""
 
-SUPPORT_STAGE_SHARE = 0.25
+SUPPORT_STAGE_SHARE = 0.15
 """Share of the time limit the LP-support first stage may use [-]."""
 
 
@@ -701,6 +701,92 @@ def _restricted_plan(
     return float(model.prob.objective.value()), values
 
 
+IMPROVE_SHARE = 0.5
+"""Share of the time limit kept for improving a plan shift by shift [-]."""
+
+IMPROVE_WINDOW = 2
+"""Consecutive shifts re-optimised together when improving a plan [-]."""
+
+
+def _improve_by_shift_windows(
+    model: PlanModel, seconds: float, bound: float | None = None, gap_rel: float = 0.0
+) -> float | None:
+    """Improve the plan in hand a few shifts at a time (HiGHS only).
+
+    Shifts are linked only through the orders, so with every variable of
+    the other shifts held at the plan's values the MILP of a window of
+    ``IMPROVE_WINDOW`` shifts is small; each window is re-solved from the
+    plan (a start) and any better plan is kept (fix-and-optimise). Works on
+    the HiGHS model of the last solve; bounds are restored afterwards and
+    the PuLP variables carry the best plan.
+
+    Stops early once the plan is within ``gap_rel`` of ``bound`` (the full
+    MILP's bound, minimisation form). Returns the best objective
+    (minimisation form) when the plan improved, else None.
+    """
+    hs = model.prob.solverModel
+    if hs is None or seconds <= 0:
+        return None
+    t_end = time.perf_counter() + seconds
+    variables = model.prob.variables()
+    shifts = {s.name: i for i, s in enumerate(model.inputs.shifts)}
+    shift_of: dict[str, int] = {}
+    for group in (model.n, model.w, model.x, model.z, model.y, model.f):
+        for key, v in group.items():
+            shift_of[v.name] = shifts[key[-1]]
+    cols = np.array([v.index for v in variables], dtype=np.int32)
+    lo = np.array([-np.inf if v.lowBound is None else v.lowBound for v in variables], float)
+    hi = np.array([np.inf if v.upBound is None else v.upBound for v in variables], float)
+    sh = np.array([shift_of.get(v.name, -1) for v in variables])
+    best = np.array([float(v.varValue or 0.0) for v in variables])
+    integer = np.array([v.cat == pulp.LpInteger for v in variables])
+    best[integer] = np.round(best[integer])
+    best = np.clip(best, lo, hi)
+    best_obj = float(hs.getInfo().objective_function_value)
+    start_obj = best_obj
+    n_shifts = len(shifts)
+    windows = list(range(max(1, n_shifts - IMPROVE_WINDOW + 1)))
+    try:
+        while time.perf_counter() < t_end - 0.2:
+            gained = False
+            for w0 in windows:
+                left = t_end - time.perf_counter()
+                close = bound is not None and best_obj - bound <= gap_rel * max(abs(best_obj), 1e-9)
+                if left < 0.2 or close:
+                    break
+                free = ((sh >= w0) & (sh < w0 + IMPROVE_WINDOW)) | (sh < 0)
+                held = ~free
+                hs.changeColsBounds(int(held.sum()), cols[held], best[held], best[held])
+                hs.changeColsBounds(int(free.sum()), cols[free], lo[free], hi[free])
+                sol = highspy.HighsSolution()
+                values = np.zeros(hs.getNumCol())
+                values[cols] = best
+                sol.col_value = list(values)
+                sol.value_valid = True
+                hs.setSolution(sol)
+                hs.setOptionValue("time_limit", max(0.1, min(left, 2.0 * seconds / len(windows))))
+                hs.run()
+                info = hs.getInfo()
+                obj = float(info.objective_function_value)
+                if info.primal_solution_status == 2 and obj < best_obj - 1e-7 * max(
+                    1.0, abs(best_obj)
+                ):
+                    found = np.asarray(hs.getSolution().col_value)[cols]
+                    found[integer] = np.round(found[integer])
+                    best = np.clip(found, lo, hi)
+                    best_obj = obj
+                    gained = True
+            if not gained or (
+                bound is not None and best_obj - bound <= gap_rel * max(abs(best_obj), 1e-9)
+            ):
+                break
+    finally:
+        hs.changeColsBounds(len(cols), cols, lo, hi)
+    for v, val in zip(variables, best, strict=True):
+        v.varValue = float(val)
+    return best_obj if best_obj < start_obj else None
+
+
 def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_current: bool):
     """Solve the MILP from an LP-support start, with a singles-only safety net.
 
@@ -709,9 +795,12 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
        most ``SUPPORT_STAGE_SHARE`` of the time limit); its plan starts the
        full MILP. On large plants, where the solver's own heuristics stall
        at the root, this start is most of the plan quality.
-    2. The full MILP, keeping ``SINGLES_STAGE_SHARE`` of the time limit in
-       reserve when there are mixed loads.
-    3. Only when step 2 did not prove its plan optimal: the MILP with every
+    2. The full MILP, keeping ``IMPROVE_SHARE`` (HiGHS) and, when there are
+       mixed loads, ``SINGLES_STAGE_SHARE`` of the time limit in reserve.
+    3. Only when step 2 did not prove its plan optimal (HiGHS): the plan is
+       improved a few shifts at a time (:func:`_improve_by_shift_windows`,
+       ``IMPROVE_SHARE`` of the time limit kept for it).
+    4. Only when the plan is still not proven optimal: the MILP with every
        mixed load held at zero (the reserve, at most ``SINGLES_STAGE_NODES``
        nodes). If that plan is better it is the one returned, with step 2's
        bound, so allowing mixed loads never gives a worse plan than the
@@ -740,10 +829,18 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
         for v in model.prob.variables():
             v.varValue = start[1].get(v.name)
     reserve = SINGLES_STAGE_SHARE * limit if mixed_n else 0.0
-    rest = max(limit - reserve - (time.perf_counter() - t0), 0.1 * limit)
+    improve = IMPROVE_SHARE * limit if solver == "highs" else 0.0
+    rest = max(limit - reserve - improve - (time.perf_counter() - t0), 0.1 * limit)
     status, gap, bound, _dt, msg = _run(
         model.prob, solver, options, time_limit=rest, start=start is not None
     )
+    if status is SolveStatus.FEASIBLE_WITH_GAP and improve > 0:
+        left = limit - reserve - (time.perf_counter() - t0)
+        better = _improve_by_shift_windows(model, left, bound, options.gap_rel)
+        if better is not None and bound is not None:
+            gap = max(0.0, better - bound) / max(abs(better), 1e-9)
+            if gap <= options.gap_rel:
+                status = SolveStatus.OPTIMAL
     if mixed_n and status is not SolveStatus.OPTIMAL and status is not SolveStatus.INFEASIBLE:
         best = None
         if status.has_plan:
@@ -758,7 +855,9 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
             best = singles
             status = SolveStatus.FEASIBLE_WITH_GAP
             if bound is not None:
-                gap = max(0.0, best[0] - bound) / max(abs(best[0]), 1e-9)
+                # PuLP does not hand the objective constant to the solver: its bound lacks it
+                c0 = float(model.prob.objective.constant)
+                gap = max(0.0, best[0] - c0 - bound) / max(abs(best[0] - c0), 1e-9)
         if best is not None:
             for v in model.prob.variables():
                 v.varValue = best[1].get(v.name)

@@ -271,3 +271,41 @@ def test_pattern_formulation_is_honest_about_its_gap():
     assert r.best_bound == pytest.approx(800.0, rel=1e-5)
     assert 750.0 - 1e-6 <= r.objective_value <= r.best_bound
     assert r.gap == pytest.approx((r.best_bound - r.objective_value) / r.objective_value, rel=1e-3)
+
+
+def _constraint_violation(model) -> float:
+    worst = 0.0
+    for c in model.prob._constraints.values():
+        v = c.value()
+        viol = abs(v) if c.sense == 0 else max(0.0, -v if c.sense > 0 else v)
+        worst = max(worst, viol)
+    return worst
+
+
+@pytest.mark.parametrize("n_shifts", [2, 3])
+def test_shift_window_improvement_reaches_a_better_feasible_plan(n_shifts):
+    # A poor plan (no batches at all in the first shift) is improved two shifts at a
+    # time; with two shifts the one window is the whole plan, so it reaches the optimum.
+    from optimizer import solve as S
+    from optimizer.loads import candidates
+    from optimizer.model import build_model
+
+    prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(4)}
+    inp = one_line(products=prods, n_shifts=n_shifts, oven_changeover=15.0, tunnel_changeover=10.0)
+    opts = SolveOptions(gap_rel=1e-9)
+    cand = candidates(inp, opts.mix_tolerance, 1)
+    model = build_model(inp, cand)
+    status, *_ = S._run(model.prob, "highs", opts)
+    assert status is SolveStatus.OPTIMAL
+    best = float(model.prob.objective.value())
+    first = [v for (_lk, s), v in model.n.items() if s == "s1"]
+    poor = S._restricted_plan(model, "highs", opts, first, 10.0)
+    assert poor is not None and poor[0] > best + 1.0  # clearly worse (min form)
+    better = S._improve_by_shift_windows(model, 20.0)
+    assert better is not None and better < poor[0] - 1.0
+    assert better >= best - 1e-6 * abs(best)  # never past the optimum
+    assert _constraint_violation(model) < 1e-6
+    assert float(model.prob.objective.value()) == pytest.approx(better, rel=1e-9)
+    assert all(abs(v.varValue - round(v.varValue)) < 1e-9 for v in model.integer_vars)
+    if n_shifts == 2:
+        assert better == pytest.approx(best, rel=1e-7)
