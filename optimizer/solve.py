@@ -7,9 +7,12 @@ names the smallest shortfalls.
 
 Compact formulation (default): the MILP is started from the plan of a
 smaller MILP on the support of the LP relaxation (every integer variable the
-LP leaves at zero held there), then solved whole; its status, gap and bound
-are the ones reported. When that does not prove optimality and the plan
-could be bettered by single-product loads alone, the better plan is kept.
+LP leaves at zero held there), then solved whole; its bound is the one
+reported. When the time limit stops it with a gap, the plan is improved a
+few shifts at a time with the rest held (HiGHS; see
+:func:`_improve_by_shift_windows`), and a plan of single-product loads alone
+is kept if it is better; the gap is then recomputed against the full MILP's
+bound.
 
 Pattern formulation (``SolveOptions.formulation = "patterns"``): oven-shift
 patterns are generated on the LP (duals of the flow rows give the value of
