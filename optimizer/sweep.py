@@ -2279,7 +2279,7 @@ def run_sweep(args: argparse.Namespace, ui: Any | None = None) -> int:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m optimizer.sweep STUDY ...`` until ``corepace sweep`` is wired in."""
+    """``python -m optimizer.sweep STUDY ...``: the same as ``corepace sweep STUDY ...``."""
     from optimizer import cli
 
     parser = argparse.ArgumentParser(prog="corepace", formatter_class=cli._Formatter)
