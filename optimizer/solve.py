@@ -192,7 +192,7 @@ def _set_relaxed(model: PlanModel, relaxed: bool) -> None:
 
 def _generate_columns(
     model: PlanModel, inputs: PlanInputs, cand: Candidates, options: SolveOptions, solver: str
-) -> tuple[int, list[str]]:
+) -> tuple[int, list[str], bool]:
     """Column generation for mixed loads on the LP relaxation.
 
     Returns (rounds, notes, whether the variable values are the optimum of
@@ -802,7 +802,8 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
        mixed loads, ``SINGLES_STAGE_SHARE`` of the time limit in reserve.
     3. Only when step 2 did not prove its plan optimal (HiGHS): the plan is
        improved a few shifts at a time (:func:`_improve_by_shift_windows`,
-       ``IMPROVE_SHARE`` of the time limit kept for it).
+       ``IMPROVE_SHARE`` of the time limit kept for it); when step 2 found
+       no plan at all, the full MILP is run again with that time instead.
     4. Only when the plan is still not proven optimal: the MILP with every
        mixed load held at zero (the reserve, at most ``SINGLES_STAGE_NODES``
        nodes). If that plan is better it is the one returned, with step 2's
@@ -837,7 +838,12 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
     status, gap, bound, _dt, msg = _run(
         model.prob, solver, options, time_limit=rest, start=start is not None
     )
-    if status is SolveStatus.FEASIBLE_WITH_GAP and improve > 0:
+    if status is SolveStatus.NO_SOLUTION_IN_TIME and improve > 0:
+        # nothing to improve: the full MILP gets the time kept for improving
+        left = limit - reserve - (time.perf_counter() - t0)
+        if left > 0.05 * limit:
+            status, gap, bound, _dt, msg = _run(model.prob, solver, options, time_limit=left)
+    elif status is SolveStatus.FEASIBLE_WITH_GAP and improve > 0:
         left = limit - reserve - (time.perf_counter() - t0)
         better = _improve_by_shift_windows(model, left, bound, options.gap_rel)
         if better is not None and bound is not None:

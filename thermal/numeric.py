@@ -499,12 +499,6 @@ class _Tables:
         w = x - j
         return w, (j if ids is None else ids.base + j)
 
-    def slope_conductivity(self, t, ids):
-        """dH/dT [J/kg K] and k [W/m K] at t."""
-        w, flat = self._index(t, ids)
-        k_lo = self.k_flat[flat]
-        return self.slope_flat[flat], k_lo + (self.k_flat[flat + 1] - k_lo) * w
-
     def enthalpy(self, t, ids):
         w, flat = self._index(t, ids)
         return self.h_flat[flat] + self.slope_flat[flat] * (w * self.dt)
@@ -564,12 +558,6 @@ def _surface_temperature(t_cell, g, h, t_air, rad, t_wall_k4, ts):
         df = g + hf + 4.0 * rad * tk**3
         ts = ts - f / df
     return np.where(inf_h, t_air, ts)
-
-
-def _surface_flux(ts, h, t_air, rad, t_wall_k4):
-    """Heat flux into the product at face temperature ts [W/m2]."""
-    hf = np.where(np.isinf(h), 0.0, h)
-    return hf * (t_air - ts) + rad * (t_wall_k4 - (ts + _KELVIN) ** 4)
 
 
 # ---------------------------------------------------------------------------
