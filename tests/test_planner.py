@@ -309,3 +309,109 @@ def test_shift_window_improvement_reaches_a_better_feasible_plan(n_shifts):
     assert all(abs(v.varValue - round(v.varValue)) < 1e-9 for v in model.integer_vars)
     if n_shifts == 2:
         assert better == pytest.approx(best, rel=1e-7)
+
+
+def _snapshot(model):
+    return [(v.name, v.cat, v.lowBound, v.upBound) for v in model.prob.variables()]
+
+
+@pytest.mark.parametrize("objective", [Objective.MOST_KG, Objective.SOONEST])
+def test_relax_and_fix_gives_a_feasible_integer_plan_and_restores_the_model(objective):
+    # Three shifts, changeovers on both machines and orders due in the first and
+    # last shift: the shift-by-shift plan must be a plan of the whole MILP (every
+    # row met, every integer whole) no better than its optimum, and the model must
+    # come back with its bounds and integrality untouched.
+    from optimizer import solve as S
+    from optimizer.loads import candidates
+    from optimizer.model import build_model
+
+    prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(4)}
+    orders = [
+        OrderData("P0", min_kg=300.0, max_kg=900.0, due_shift="s1"),
+        OrderData("P1", min_kg=200.0, max_kg=800.0),
+        OrderData("P2", max_kg=700.0),
+        OrderData("P3", min_kg=100.0, max_kg=600.0, due_shift="s2"),
+    ]
+    inp = one_line(
+        products=prods,
+        orders=orders,
+        n_shifts=3,
+        oven_changeover=15.0,
+        tunnel_changeover=10.0,
+        objective=objective,
+    )
+    opts = SolveOptions(gap_rel=1e-9)
+    cand = candidates(inp, opts.mix_tolerance, 1)
+    model = build_model(inp, cand)
+    status, *_ = S._run(model.prob, "highs", opts)
+    assert status is SolveStatus.OPTIMAL
+    best = float(model.prob.objective.value())
+    before = _snapshot(model)
+    if objective is Objective.SOONEST:
+        assert model.f  # the completion binaries are in the model
+    found = S._relax_and_fix(model, "highs", opts, 30.0)
+    assert found is not None
+    assert _snapshot(model) == before
+    obj, values = found
+    for v in model.prob.variables():
+        v.varValue = values[v.name]
+    assert _constraint_violation(model) < 1e-6
+    assert all(abs(v.varValue - round(v.varValue)) < 1e-9 for v in model.integer_vars)
+    assert float(model.prob.objective.value()) == pytest.approx(obj, rel=1e-9)
+    assert obj >= best - 1e-6 * max(1.0, abs(best))  # a plan, never past the optimum
+
+
+def test_relax_and_fix_without_a_plan_returns_none_and_restores_the_model():
+    # The order minimum is more than the line can cook in the two shifts: no step
+    # has a plan.
+    from optimizer import solve as S
+    from optimizer.loads import candidates
+    from optimizer.model import build_model
+
+    inp = one_line(n_shifts=2, orders=[OrderData("A", min_kg=50_000.0)], tunnel_changeover=5.0)
+    opts = SolveOptions()
+    model = build_model(inp, candidates(inp, opts.mix_tolerance, 1))
+    before = _snapshot(model)
+    assert S._relax_and_fix(model, "highs", opts, 10.0) is None
+    assert _snapshot(model) == before
+
+
+def test_idle_batches_settings_and_runs_are_dropped_from_a_plan():
+    # Two products and three shifts, so one shift is left empty; an optimal plan,
+    # then padded by hand in the empty shift with two empty batches, their oven
+    # setting switched on and a tunnel run with no kg (what a start held in place
+    # can leave within the gap): the tidy step removes exactly those and the plan
+    # stays feasible.
+    from optimizer import solve as S
+    from optimizer.loads import candidates
+    from optimizer.model import build_model
+
+    prods = {"A": (10.0, 50.0, 1.0, {}), "B": (8.0, 45.0, 0.8, {})}
+    orders = [OrderData("A", max_kg=300.0), OrderData("B", max_kg=200.0)]
+    inp = one_line(
+        products=prods, orders=orders, n_shifts=3, oven_changeover=15.0, tunnel_changeover=10.0
+    )
+    opts = SolveOptions(gap_rel=1e-9)
+    model = build_model(inp, candidates(inp, opts.mix_tolerance, 1))
+    status, *_ = S._run(model.prob, "highs", opts)
+    assert status is SolveStatus.OPTIMAL
+    # the solver leaves settings and runs with nothing in them switched on when the
+    # machines have time to spare (no objective term prices them): those go first
+    assert S._drop_idle(model) > 0
+    assert _constraint_violation(model) < 1e-6
+    clean = {v.name: v.varValue for v in model.prob.variables()}
+    assert S._drop_idle(model) == 0
+    empty = next(
+        s
+        for s in ("s1", "s2", "s3")
+        if all(v.varValue < 0.5 for (_, s2), v in model.n.items() if s2 == s)
+    )
+    pad_n = next(v for (_lk, s), v in model.n.items() if s == empty)
+    pad_n.varValue = 2.0
+    pad_z = next(v for (_o, _os, s), v in model.z.items() if s == empty)
+    pad_z.varValue = 1.0
+    pad_y = next(v for (_t, _p, _ts, s), v in model.y.items() if s == empty)
+    pad_y.varValue = 1.0
+    assert _constraint_violation(model) < 1e-6  # padded, still a plan
+    assert S._drop_idle(model) == 3
+    assert {v.name: v.varValue for v in model.prob.variables()} == clean
