@@ -803,7 +803,9 @@ def _relax_and_fix(
     released and the step repeated once; a second failure ends the search.
     The completion binaries of SOONEST stay relaxed until a last step with
     everything else held. Each step stops at :data:`RELAX_FIX_GAP` or after
-    :data:`RELAX_FIX_STEP_SHARE` of the time limit, keeping its plan. Every
+    :data:`RELAX_FIX_STEP_SHARE` of the time limit, keeping its plan; the
+    search gives up as soon as the steps so far, at their pace, say the
+    rest will not fit in ``time_limit``. Every
     step is a small MILP (one shift integer) because shifts are linked only
     by the orders; a classic
     lot-sizing heuristic (relax-and-fix; see e.g. Pochet and Wolsey,
@@ -844,6 +846,9 @@ def _relax_and_fix(
                 if shift_of[v.name] == i:
                     v.lowBound = v.upBound = round(v.varValue or 0.0)
             held, i = i, i + 1
+            spent = time.perf_counter() - t0
+            if spent + spent / i * (last + 1 - i) > time_limit:
+                return None  # at this pace the remaining steps do not fit
         for v in stepped:
             v.cat = pulp.LpInteger
         for v in model.f.values():
@@ -891,6 +896,9 @@ def _improve_by_shift_windows(
     hs = model.prob.solverModel
     if hs is None or seconds <= 0:
         return None
+    for name in SEARCH_FROM_START:
+        # the windows look for better plans: HiGHS's own heuristics back on
+        hs.setOptionValue(name, True)
     t_end = time.perf_counter() + seconds
     variables = model.prob.variables()
     shifts = {s.name: i for i, s in enumerate(model.inputs.shifts)}
@@ -992,6 +1000,9 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
         st, *_ = _run(model.prob, solver, options, mip=False)
         _set_relaxed(model, False)
         lp_current = st is SolveStatus.OPTIMAL
+    c0 = float(model.prob.objective.constant)
+    # the LP relaxation's optimum bounds the MILP (solver form: without the constant)
+    lp_bound = float(model.prob.objective.value()) - c0 if lp_current else None
     idle = [v for v in ints if abs(v.varValue or 0.0) <= 1e-9] if lp_current else []
     start = None
     if solver == "highs":
@@ -1012,7 +1023,13 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
         left = limit - reserve - (time.perf_counter() - t0)
         if left > 0.05 * limit:
             status, gap, bound, _dt, msg = _run(model.prob, solver, options, time_limit=left)
-    elif status is SolveStatus.FEASIBLE_WITH_GAP and improve > 0:
+    if status is SolveStatus.FEASIBLE_WITH_GAP and lp_bound is not None:
+        # stopped before its root LP was solved, the MILP's own bound can be far weaker
+        if bound is None or bound < lp_bound:
+            bound = lp_bound
+            obj = float(model.prob.objective.value()) - c0
+            gap = max(0.0, obj - bound) / max(abs(obj), 1e-9)
+    if status is SolveStatus.FEASIBLE_WITH_GAP and improve > 0:
         left = limit - reserve - (time.perf_counter() - t0)
         better = _improve_by_shift_windows(model, left, bound, options.gap_rel)
         if better is not None and bound is not None:
@@ -1034,7 +1051,6 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
             status = SolveStatus.FEASIBLE_WITH_GAP
             if bound is not None:
                 # PuLP does not hand the objective constant to the solver: its bound lacks it
-                c0 = float(model.prob.objective.constant)
                 gap = max(0.0, best[0] - c0 - bound) / max(abs(best[0] - c0), 1e-9)
         if best is not None:
             for v in model.prob.variables():

@@ -415,3 +415,35 @@ def test_idle_batches_settings_and_runs_are_dropped_from_a_plan():
     assert _constraint_violation(model) < 1e-6  # padded, still a plan
     assert S._drop_idle(model) == 3
     assert {v.name: v.varValue for v in model.prob.variables()} == clean
+
+
+def test_a_full_milp_stopped_before_its_root_lp_reports_the_lp_bound(monkeypatch):
+    # The full MILP is made to report a useless bound (as HiGHS does when its time
+    # runs out before the root LP is solved); the plan's bound and gap must then come
+    # from the LP relaxation solved before it, which bounds the MILP too.
+    from optimizer import solve as S
+    from optimizer.loads import candidates
+    from optimizer.model import build_model
+
+    prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(3)}
+    inp = one_line(products=prods, n_shifts=2, oven_changeover=15.0, tunnel_changeover=10.0)
+    opts = SolveOptions(max_mix_products=1, shadow_prices=False)
+    lp = build_model(inp, candidates(inp, opts.mix_tolerance, 1))
+    S._set_relaxed(lp, True)
+    assert S._run(lp.prob, "highs", opts, mip=False)[0] is SolveStatus.OPTIMAL
+    lp_value = -float(lp.prob.objective.value())  # most kg, maximised
+
+    real = S._run
+
+    def weak_bound(prob, name, options, **kw):
+        status, gap, bound, dt, msg = real(prob, name, options, **kw)
+        if "start" in kw and status.has_plan:  # the full MILP
+            return SolveStatus.FEASIBLE_WITH_GAP, 1e9, -1e12, dt, msg
+        return status, gap, bound, dt, msg
+
+    monkeypatch.setattr(S, "_run", weak_bound)
+    r = plan(inp, opts)
+    assert r.best_bound == pytest.approx(lp_value, rel=1e-9)
+    # the gap is taken in the solver's objective, tie-break term included (< 1e-3)
+    assert r.gap == pytest.approx((lp_value - r.objective_value) / r.objective_value, rel=1e-4)
+    assert r.status is SolveStatus.FEASIBLE_WITH_GAP and r.gap < 0.1  # not the useless bound
