@@ -282,22 +282,28 @@ def _constraint_violation(model) -> float:
     return worst
 
 
+def _solved_single_product_loads(inp: PlanInputs, opts: SolveOptions):
+    """The compact model of ``inp`` with single-product loads, solved to optimality."""
+    from optimizer import solve as S
+    from optimizer.loads import candidates
+    from optimizer.model import build_model
+
+    model = build_model(inp, candidates(inp, opts.mix_tolerance, 1))
+    status, *_ = S._run(model.prob, "highs", opts)
+    assert status is SolveStatus.OPTIMAL
+    return model, float(model.prob.objective.value())
+
+
 @pytest.mark.parametrize("n_shifts", [2, 3])
 def test_shift_window_improvement_reaches_a_better_feasible_plan(n_shifts):
     # A poor plan (no batches at all in the first shift) is improved two shifts at a
     # time; with two shifts the one window is the whole plan, so it reaches the optimum.
     from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
 
     prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(4)}
     inp = one_line(products=prods, n_shifts=n_shifts, oven_changeover=15.0, tunnel_changeover=10.0)
     opts = SolveOptions(gap_rel=1e-9)
-    cand = candidates(inp, opts.mix_tolerance, 1)
-    model = build_model(inp, cand)
-    status, *_ = S._run(model.prob, "highs", opts)
-    assert status is SolveStatus.OPTIMAL
-    best = float(model.prob.objective.value())
+    model, best = _solved_single_product_loads(inp, opts)
     first = [v for (_lk, s), v in model.n.items() if s == "s1"]
     poor = S._restricted_plan(model, "highs", opts, first, 10.0)
     assert poor is not None and poor[0] > best + 1.0  # clearly worse (min form)
@@ -322,8 +328,6 @@ def test_relax_and_fix_gives_a_feasible_integer_plan_and_restores_the_model(obje
     # row met, every integer whole) no better than its optimum, and the model must
     # come back with its bounds and integrality untouched.
     from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
 
     prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(4)}
     orders = [
@@ -341,11 +345,7 @@ def test_relax_and_fix_gives_a_feasible_integer_plan_and_restores_the_model(obje
         objective=objective,
     )
     opts = SolveOptions(gap_rel=1e-9)
-    cand = candidates(inp, opts.mix_tolerance, 1)
-    model = build_model(inp, cand)
-    status, *_ = S._run(model.prob, "highs", opts)
-    assert status is SolveStatus.OPTIMAL
-    best = float(model.prob.objective.value())
+    model, best = _solved_single_product_loads(inp, opts)
     before = _snapshot(model)
     if objective is Objective.SOONEST:
         assert model.f  # the completion binaries are in the model
@@ -383,18 +383,13 @@ def test_idle_batches_settings_and_runs_are_dropped_from_a_plan():
     # can leave within the gap): the tidy step removes exactly those and the plan
     # stays feasible.
     from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
 
     prods = {"A": (10.0, 50.0, 1.0, {}), "B": (8.0, 45.0, 0.8, {})}
     orders = [OrderData("A", max_kg=300.0), OrderData("B", max_kg=200.0)]
     inp = one_line(
         products=prods, orders=orders, n_shifts=3, oven_changeover=15.0, tunnel_changeover=10.0
     )
-    opts = SolveOptions(gap_rel=1e-9)
-    model = build_model(inp, candidates(inp, opts.mix_tolerance, 1))
-    status, *_ = S._run(model.prob, "highs", opts)
-    assert status is SolveStatus.OPTIMAL
+    model, _ = _solved_single_product_loads(inp, SolveOptions(gap_rel=1e-9))
     # the solver leaves settings and runs with nothing in them switched on when the
     # machines have time to spare (no objective term prices them): those go first
     assert S._drop_idle(model) > 0
