@@ -1114,7 +1114,7 @@ def plan_report(
     str
         The self-contained HTML page.
     """
-    from optimizer.results import bottleneck
+    from optimizer.results import ELASTIC_STOPPED, bottleneck
 
     unit = result.objective_unit
     status = result.status
@@ -1150,9 +1150,15 @@ def plan_report(
     pairs.append(("solver", result.solver))
     report.key_values(pairs)
     if not status.has_plan:
+        proven = not any(m.startswith(ELASTIC_STOPPED) for m in result.messages)
         report.note(
             "No plan meets every order with the machines available. The diagnosis below "
-            "names the smallest shortfalls that would make the orders fit."
+            + (
+                "names the smallest shortfalls that would make the orders fit."
+                if proven
+                else "names shortfalls that would make the orders fit (see the note on "
+                "the elastic re-solve)."
+            )
             if status.value == "infeasible"
             else f"No plan: {status.value.replace('_', ' ')}."
         )

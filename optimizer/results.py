@@ -28,6 +28,9 @@ CAUTION = (
     "plan with calibrated probes in the thickest pieces at the coldest spot before use."
 )
 
+ELASTIC_STOPPED = "elastic re-solve stopped"
+"""Start of the note when the elastic re-solve did not prove its shortfalls smallest."""
+
 OBJECTIVE_UNITS = {
     Objective.MOST_KG: "kg",
     Objective.MOST_VALUE: "value",
@@ -547,7 +550,10 @@ def summary_text(result: PlanResult) -> str:
             nb = sum(b.batches for b in result.batches if b.shift == shift)
             lines.append(f"  {shift}: {nb} batches, {kg:,.1f} kg")
     if result.shortfalls:
-        lines.append("Nothing fits every order; the smallest changes that would make it fit:")
+        if any(m.startswith(ELASTIC_STOPPED) for m in result.messages):
+            lines.append("Nothing fits every order; changes that would make it fit (see the note):")
+        else:
+            lines.append("Nothing fits every order; the smallest changes that would make it fit:")
         lines.extend(f"  - {s.message}" for s in result.shortfalls)
     for p, reasons in result.excluded.items():
         lines.append(f"Cannot make {p} on this plant: {'; '.join(reasons)}")

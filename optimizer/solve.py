@@ -56,6 +56,7 @@ from optimizer.loads import (
 )
 from optimizer.model import PlanModel, build_model
 from optimizer.results import (
+    ELASTIC_STOPPED,
     OBJECTIVE_UNITS,
     BatchContent,
     ConstraintSlack,
@@ -471,7 +472,7 @@ def _diagnose(
     if status is not SolveStatus.OPTIMAL:
         at = f" at a {gap:.1%} gap" if gap is not None else ""
         note = (
-            f"elastic re-solve stopped{at} after {limited.time_limit_s:g} s: the "
+            f"{ELASTIC_STOPPED}{at} after {limited.time_limit_s:g} s: the "
             "shortfalls listed make the orders fit but may not be the smallest"
         )
     shifts = [s.name for s in inputs.shifts]

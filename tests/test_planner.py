@@ -6,11 +6,14 @@ by hand in the comments.
 
 from __future__ import annotations
 
+import dataclasses
+
 import pytest
 
 from optimizer.inputs import Objective, OrderData, PlanInputs, SolveOptions
 from optimizer.results import (
     CAUTION,
+    ELASTIC_STOPPED,
     SolveStatus,
     bottleneck,
     oven_table,
@@ -58,7 +61,15 @@ def test_shortfall_names_the_order():
     assert (s.kind, s.subject, s.shift) == ("order", "A", "s1")
     assert s.amount == pytest.approx(100.0, rel=1e-6)
     assert s.message == "order for A: 100 kg short by s1"
-    assert "100 kg short by s1" in summary_text(r)
+    text = summary_text(r)
+    assert "100 kg short by s1" in text
+    # proven smallest here; an elastic re-solve stopped with a gap says so instead
+    assert "the smallest changes that would make it fit" in text
+    assert not any(m.startswith("elastic re-solve") for m in r.messages)
+    stopped = dataclasses.replace(r, messages=(*r.messages, ELASTIC_STOPPED + " at a 2.0% gap"))
+    text = summary_text(stopped)
+    assert "smallest" not in text.split(ELASTIC_STOPPED)[0]
+    assert "changes that would make it fit (see the note)" in text
 
 
 def test_shortfall_names_the_machine_minutes():
