@@ -225,12 +225,15 @@ def _solver(
     start: bool = False,
     max_nodes: int | None = None,
     sub_mips: bool = True,
+    presolve: bool = True,
 ):
     limit = options.time_limit_s if time_limit is None else time_limit
     if name == "highs":
         extra = {} if max_nodes is None else {"mip_max_nodes": int(max_nodes)}
         if not sub_mips:
             extra.update(SEARCH_FROM_START)
+        if not presolve:
+            extra["presolve"] = "off"
         return _HighsWithStart(
             mip=mip,
             msg=options.msg,
@@ -264,11 +267,12 @@ def _run(
     start: bool = False,
     max_nodes: int | None = None,
     sub_mips: bool = True,
+    presolve: bool = True,
 ):
     """Solve ``prob``; return (status, gap, bound (min form), seconds, message).
 
     ``sub_mips=False`` turns HiGHS's sub-MIP heuristics off
-    (:data:`SEARCH_FROM_START`).
+    (:data:`SEARCH_FROM_START`); ``presolve=False`` its presolve.
     """
     t0 = time.perf_counter()
     limit = options.time_limit_s if time_limit is None else time_limit
@@ -284,6 +288,7 @@ def _run(
                     start=start,
                     max_nodes=max_nodes,
                     sub_mips=sub_mips,
+                    presolve=presolve,
                 )
             )
     except Exception as exc:  # solver crash: report, let the caller fall back
@@ -489,7 +494,10 @@ def _shadow_prices(
     saved.extend(implied)
     _set_relaxed(model, True)
     try:
-        status, *_ = _run(model.prob, solver, options, mip=False)
+        # Without presolve: on the large benchmark plant HiGHS's clean-up solve of
+        # the original LP after presolve failed (status not set) in most runs,
+        # and without presolve the LP solved in about 4 s.
+        status, *_ = _run(model.prob, solver, options, mip=False, presolve=False)
         if status is not SolveStatus.OPTIMAL:
             return (), f"shadow prices not available: fixed LP {status.value}"
         out = []
