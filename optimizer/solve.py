@@ -195,7 +195,12 @@ class _HighsWithStart(pulp.HiGHS):
         hs = lp.solverModel
         status = hs.getModelStatus()
         solution = hs.getSolution()
-        for v, x, d in zip(variables, solution.col_value, solution.col_dual, strict=False):
+        values, duals = solution.col_value, solution.col_dual
+        if len(values) != len(variables):  # no solution at all: no stale values either
+            values = [None] * len(variables)
+        if len(duals) != len(variables):
+            duals = [None] * len(variables)
+        for v, x, d in zip(variables, values, duals, strict=True):
             v.varValue = x
             v.dj = d
         for c, r, pi in zip(cons, solution.row_value, solution.row_dual, strict=False):
