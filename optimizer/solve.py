@@ -934,11 +934,11 @@ def _relax_and_fix(
     everything else held. Each step stops at :data:`RELAX_FIX_GAP` or after
     :data:`RELAX_FIX_STEP_SHARE` of the time limit, keeping its plan; the
     search gives up as soon as the steps so far, at their pace, say the
-    rest will not fit in ``time_limit``. Every
-    step is a small MILP (one shift integer) because shifts are linked only
-    by the orders; a classic
+    rest will not fit in ``time_limit``. Every step is a small MILP (one
+    shift integer) because shifts are linked only by the orders; a classic
     lot-sizing heuristic (relax-and-fix; see e.g. Pochet and Wolsey,
-    *Production Planning by Mixed Integer Programming*, 2006).
+    *Production Planning by Mixed Integer Programming*, 2006). A released
+    shift stays free (and integer) in the later steps.
 
     Returns (objective, variable values) of the plan, or None when the time
     runs out or no plan is found. Bounds and integrality are restored
