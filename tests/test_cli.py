@@ -189,9 +189,9 @@ def cache(tmp_path_factory) -> Path:
     """
     from optimizer.dwell import table as dwell
 
-    salt = dwell._physics_salt()
+    salt = dwell.physics_salt()
     with pytest.MonkeyPatch.context() as patch:
-        patch.setattr(dwell, "_physics_salt", lambda: salt)
+        patch.setattr(dwell, "physics_salt", lambda: salt)
         yield tmp_path_factory.mktemp("dwell-cache")
 
 
@@ -692,6 +692,7 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
     through the shortest and the longest wait before the belt, at the planned
     belt speed.
     """
+    from optimizer.dwell import convert, stages
     from optimizer.dwell import table as dwell
     from optimizer.scenario.models import load_scenario
     from thermal import process
@@ -711,12 +712,12 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
         setting = next(s for s in ovens[row.oven].settings if s.name == row.setting)
         for name in (n.strip() for n in row.products.split(",")):
             spec = products[name]
-            rule = dwell.cook_rule(scenario.cook_rule(spec), spec.initial_temperature, 0.0)
-            piece = dwell.thermal_product(spec, emissivity=setting.emissivity)
+            rule = convert.cook_rule(scenario.cook_rule(spec), spec.initial_temperature, 0.0)
+            piece = convert.thermal_product(spec, emissivity=setting.emissivity)
             hist, final = process.run_stages(
                 piece,
                 spec.initial_temperature,
-                process.OvenStage(dwell.air_setting(setting)),
+                process.OvenStage(convert.air_setting(setting)),
                 row.cook_min * 60.0,
             )
             verdict = rule.check(hist.times, hist.core, hist.surface_max)
@@ -730,17 +731,17 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
         tunnel = tunnels[run.tunnel]
         setting = next(s for s in tunnel.settings if s.name == run.tunnel_setting)
         loading = next(opt for opt in tunnel.loadings if opt.name == run.loading)
-        zones = dwell.tunnel_zones(tunnel, setting, dwell._loading_factor(loading))
-        rule = dwell.chill_rule(scenario.chill_rule(spec), 0.0)
+        zones = stages.tunnel_zones(tunnel, setting, convert.loading_factor(loading))
+        rule = convert.chill_rule(scenario.chill_rule(spec), 0.0)
         _, start = exit_profile[(run.shift, run.product, run.oven, run.oven_setting)]
         residence = tunnel.length / run.belt_speed_m_per_min * 60.0
         for wait in dwell._hold_waits(tunnel):
             hist, _ = process.run_stages(
-                dwell.thermal_product(spec),
+                convert.thermal_product(spec),
                 start,
                 None,
                 0.0,
-                dwell._transfer(tunnel.transfer, wait),
+                stages.transfer_stage(tunnel.transfer, wait),
                 zones,
                 residence,
             )

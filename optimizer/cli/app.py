@@ -42,6 +42,7 @@ from __future__ import annotations
 import argparse
 import hashlib
 import json
+import math
 import os
 import re
 import sys
@@ -290,7 +291,8 @@ def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
         Listing every problem, each prefixed with the file name.
     """
     path = _scenario_path(path_text)
-    from optimizer.scenario.models import ScenarioError, load_scenario
+    from optimizer.dwell.checks import load_checked_scenario
+    from optimizer.scenario.models import ScenarioError
     from optimizer.scenario.overrides import OverrideError, parse_assignment
 
     changes = []
@@ -303,7 +305,7 @@ def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
     if problems:
         raise BadInput(problems)
     try:
-        return load_scenario(path, changes)
+        return load_checked_scenario(path, changes)
     except ScenarioError as exc:
         # a line about the file itself names it already (the extends chain too)
         own = (f"{path_text}: ", f"{Path(path).resolve()}: ")
@@ -394,10 +396,63 @@ def _scenario_summary(scenario: Any) -> dict[str, int]:
 # ---------------------------------------------------------------------------
 
 
+def render_dwell_table(table: pd.DataFrame, *, title: str = "Dwell table") -> Table:
+    """The dwell table as a :class:`rich.table.Table` for the terminal.
+
+    One line per row: the keys, cook and chill minutes with the method and the
+    binding clause, the fastest belt speed, and for ruled-out rows the
+    reason. Ruled-out rows are dimmed.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A dwell table (:func:`optimizer.dwell.table.build_dwell_table`).
+    title : str
+        Title printed above the table.
+    """
+    out = Table(title=title, title_justify="left", header_style="bold")
+    for label, justify in (
+        ("product", "left"),
+        ("oven / setting", "left"),
+        ("tunnel / setting / loading", "left"),
+        ("cook min", "right"),
+        ("chill min", "right"),
+        ("belt ≤ m/min", "right"),
+        ("binds / why not", "left"),
+    ):
+        out.add_column(label, justify=justify, overflow="fold")
+
+    def minutes(value: float, method: str) -> str:
+        if not math.isfinite(value):
+            return "—"
+        return f"{value:.1f}" + (f" ({method[0]})" if method else "")
+
+    for r in table.itertuples(index=False):
+        if r.feasible:
+            status = f"cook: {r.cook_binding}; chill: {r.chill_binding}"
+        else:
+            status = r.reason
+        out.add_row(
+            r.product,
+            f"{r.oven} / {r.oven_setting}",
+            f"{r.tunnel} / {r.tunnel_setting} / {r.loading}",
+            minutes(r.cook_min, r.cook_method),
+            minutes(r.chill_min, r.chill_method),
+            "—"
+            if not math.isfinite(r.max_belt_speed_m_per_min)
+            else f"{r.max_belt_speed_m_per_min:.2f}",
+            status,
+            style=None if r.feasible else "dim",
+        )
+    out.caption = (
+        "(s) exact series, (n) finite volumes; largest piece, safety margin included. "
+        "Model estimates: validate with probes against the plant's food-safety plan."
+    )
+    return out
+
+
 def cmd_dwell(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace dwell SCENARIO``: print and write the dwell table."""
-    from optimizer.dwell.table import render_dwell_table
-
     scenario = load(args.scenario, args)
     target = out_dir(args, args.scenario)
     table = dwell_table(scenario, args, ui)
@@ -720,7 +775,8 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
         return []
     import numpy as np
 
-    from optimizer.dwell import table as dw
+    from optimizer.dwell import convert
+    from optimizer.dwell.stages import transfer_stage, tunnel_zones
     from optimizer.reporting.html import CurveSet, Stage
     from thermal import lethality, process
 
@@ -748,25 +804,25 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
         loading = next(x for x in tunnel.loadings if x.name == loading_name)
         cook_min = float(table.loc[key, "cook_min"])
         residence_min = tunnel.length / speed[key]
-        factor = dw._loading_factor(loading)
+        factor = convert.loading_factor(loading)
         transfer = (
-            dw._transfer(tunnel.transfer, tunnel.transfer.duration)
+            transfer_stage(tunnel.transfer, tunnel.transfer.duration)
             if tunnel.transfer is not None
             else None
         )
         hist_oven, profile = process.run_stages(
-            dw.thermal_product(product, emissivity=oset.emissivity),
+            convert.thermal_product(product, emissivity=oset.emissivity),
             product.initial_temperature,
-            process.OvenStage(dw.air_setting(oset)),
+            process.OvenStage(convert.air_setting(oset)),
             cook_min * 60.0,
         )
         hist_tunnel, _ = process.run_stages(
-            dw.thermal_product(product),
+            convert.thermal_product(product),
             profile,
             None,
             0.0,
             transfer,
-            dw.tunnel_zones(tunnel, tset, factor),
+            tunnel_zones(tunnel, tset, factor),
             residence_min * 60.0,
         )
         hist = hist_oven.then(hist_tunnel)

@@ -30,7 +30,7 @@ import math
 import re
 import types
 import typing
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from functools import lru_cache
 from importlib import resources
 from pathlib import Path
@@ -52,6 +52,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from optimizer.scenario.overrides import Change, OverrideError, load_raw
 from optimizer.scenario.units import KINDS, UnitParseError, parse_quantity
 
 __all__ = [
@@ -68,6 +69,7 @@ __all__ = [
     "Order",
     "Oven",
     "OvenSetting",
+    "PhysicsCheck",
     "Product",
     "SafetyMargin",
     "Scenario",
@@ -1088,6 +1090,18 @@ _ANY = "\x00any"  # marks a section that failed as a whole: skip reference check
 
 # ------------------------------------------------------------------ cross-field checks
 
+PhysicsCheck = Callable[
+    [Sequence[tuple[int, "Oven"]], Sequence[tuple[int, "Tunnel"]], Sequence[tuple[int, "Product"]]],
+    list[str],
+]
+"""``physics(ovens, tunnels, products)``: problems only the physics can judge.
+
+Each argument lists the items that validated with their index in the file;
+each problem is one line ``field.path: what is wrong``. The scenario layer
+knows no physics: the dwell layer supplies this check
+(:func:`optimizer.dwell.checks.physics_problems`).
+"""
+
 
 def _quote_list(names: Iterable[str]) -> str:
     names = list(names)
@@ -1100,11 +1114,13 @@ def _cross_field_problems(
     objective: Objective | None,
     raw_names: Mapping[str, set[str]],
     margin: float = 0.0,
+    physics: PhysicsCheck | None = None,
 ) -> list[str]:
     """Checks that span several fields. ``parts`` holds the items that validated.
 
     ``raw_names`` holds names of items that failed validation, so they do not
-    also show up as "unknown" references.
+    also show up as "unknown" references. ``physics`` adds the problems only
+    the physics can judge (see :data:`PhysicsCheck`).
     """
     out: list[str] = []
     ovens = parts.get("ovens", [])
@@ -1195,7 +1211,8 @@ def _cross_field_problems(
                         f"warmer than zones[{j - 1}] ({_fmt(before)} °C) — zone air must not get "
                         f"warmer along the tunnel, got {_fmt(here)} °C"
                     )
-    out.extend(_physics_problems(ovens, tunnels, products))
+    if physics is not None:
+        out.extend(physics(ovens, tunnels, products))
 
     # products: rules
     library = {**builtin_rules(), **rules}
@@ -1291,60 +1308,6 @@ def _cross_field_problems(
         fields_set = [(i, p) for i, p in products if "value_per_kg" not in p.model_fields_set]
         for i, _ in fields_set:
             out.append(f"products[{i}].value_per_kg: required when objective.kind is most_value")
-    return out
-
-
-_PHYSICS_FIELDS = {
-    "temperature": "air_temperature",
-    "speed": "air_speed",
-    "humidity_ratio": "dew_point",
-    "relative_humidity": "relative_humidity",
-    "wall_temperature": "wall_temperature",
-    "measured_h": "measured_h",
-}
-
-
-def _physics_problems(
-    ovens: list[tuple[int, Oven]],
-    tunnels: list[tuple[int, Tunnel]],
-    products: list[tuple[int, Product]],
-) -> list[str]:
-    """Ask the physics layer to accept every air setting and material, with field paths.
-
-    Catches what only the physics can judge, e.g. a relative humidity that
-    air above 100 °C cannot hold at atmospheric pressure.
-    """
-    from optimizer.dwell.table import air_setting, thermal_properties
-    from thermal.errors import ThermalInputError
-
-    out: list[str] = []
-
-    def air(path: str, spec: Any) -> None:
-        try:
-            air_setting(spec)
-        except ThermalInputError as exc:
-            msg = str(exc)
-            head, sep, tail = msg.partition(": ")
-            if sep and head in _PHYSICS_FIELDS:
-                out.append(f"{path}.{_PHYSICS_FIELDS[head]}: {tail}")
-            else:
-                out.append(f"{path}: {msg}")
-
-    for i, o in ovens:
-        for k, st in enumerate(o.settings):
-            air(f"ovens[{i}].settings[{k}]", st)
-    for i, t in tunnels:
-        if t.transfer is not None:
-            air(f"tunnels[{i}].transfer", t.transfer)
-        for k, st in enumerate(t.settings):
-            for j, z in enumerate(st.zones):
-                air(f"tunnels[{i}].settings[{k}].zones[{j}]", z)
-    for i, p in products:
-        try:
-            thermal_properties(p)
-        except ThermalInputError as exc:
-            part = "composition" if p.composition is not None else "properties"
-            out.append(f"products[{i}].{part}: {exc}")
     return out
 
 
@@ -1520,7 +1483,9 @@ def _raw_name(item: Any) -> str | None:
     return None
 
 
-def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
+def scenario_from_dict(
+    data: Any, source: str | None = None, *, physics: PhysicsCheck | None = None
+) -> Scenario:
     """Validate a raw scenario mapping (as read from YAML) into a :class:`Scenario`.
 
     Every section and list item is validated separately so that all problems
@@ -1532,6 +1497,10 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         Raw scenario, values with or without units.
     source : str, optional
         Where ``data`` came from, for the error message.
+    physics : PhysicsCheck, optional
+        Checks only the physics can judge, run with the cross-field checks
+        (:func:`optimizer.dwell.checks.physics_problems`; the dwell layer's
+        :func:`optimizer.dwell.checks.load_checked_scenario` passes it).
 
     Raises
     ------
@@ -1617,7 +1586,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         if key in data and not isinstance(data[key], str):
             problems.append(f"{key}: expected text, got {data[key]!r}")
 
-    problems.extend(_cross_field_problems(parts, rules, objective, raw_names, margin))
+    problems.extend(_cross_field_problems(parts, rules, objective, raw_names, margin, physics))
     if problems:
         raise ScenarioError(problems, source)
     try:
@@ -1626,7 +1595,9 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         raise ScenarioError(_errors_of(Scenario, exc), source) from None
 
 
-def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
+def load_scenario(
+    path: str | Path, changes: Iterable[Change] = (), *, physics: PhysicsCheck | None = None
+) -> Scenario:
     """Read and validate a scenario file.
 
     ``extends`` chains and ``changes`` (see :mod:`optimizer.scenario.overrides`) are
@@ -1638,6 +1609,8 @@ def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
         Scenario YAML file.
     changes : iterable of optimizer.scenario.overrides.Change
         Dotted-path changes applied after the file (``--set``).
+    physics : PhysicsCheck, optional
+        Checks only the physics can judge (see :func:`scenario_from_dict`).
 
     Returns
     -------
@@ -1649,13 +1622,11 @@ def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
     ScenarioError
         All problems at once, one line each; nothing has been computed or written.
     """
-    from optimizer.scenario.overrides import OverrideError, load_raw
-
     try:
         raw = load_raw(path, changes)
     except OverrideError as exc:
         raise ScenarioError([str(exc)], str(path)) from None
-    return scenario_from_dict(raw, str(path))
+    return scenario_from_dict(raw, str(path), physics=physics)
 
 
 def scenario_to_dict(scenario: Scenario) -> dict[str, Any]:

@@ -1106,7 +1106,8 @@ def check_study(study: Study) -> None:
     StudyError
         One line per problem, naming the point and the scenario field.
     """
-    from optimizer.scenario.models import ScenarioError, scenario_from_dict
+    from optimizer.dwell.checks import checked_scenario_from_dict
+    from optimizer.scenario.models import ScenarioError
 
     problems: list[str] = []
     seen: set[str] = set()
@@ -1121,7 +1122,7 @@ def check_study(study: Study) -> None:
             continue
         seen.add(key)
         try:
-            scenario_from_dict(raw, str(study.base_path))
+            checked_scenario_from_dict(raw, str(study.base_path))
         except ScenarioError as exc:
             for p in exc.problems:
                 line = f"{study.path}: {where}: {p}"
@@ -1200,11 +1201,11 @@ def _quiet_banner() -> None:
 
 
 def _scenario_of(point: SweepPoint) -> tuple[Any, dict[str, Any]]:
-    from optimizer.scenario.models import scenario_from_dict
+    from optimizer.dwell.checks import checked_scenario_from_dict
 
     ctx = dict(point.context)
     raw = apply_changes(json.loads(ctx["base"]), point.changes)
-    return scenario_from_dict(raw, f"{ctx.get('source', 'base')} [{point.label}]"), ctx
+    return checked_scenario_from_dict(raw, f"{ctx.get('source', 'base')} [{point.label}]"), ctx
 
 
 def warm_dwell(point: SweepPoint) -> dict[str, Any]:
