@@ -32,7 +32,7 @@ import pandas as pd
 import pytest
 import yaml
 
-from optimizer.cli import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
+from optimizer.cli.app import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
 from tests._png import DRAWN_MIN, coloured_share, png_of_data_uri
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -187,7 +187,7 @@ def cache(tmp_path_factory) -> Path:
     tree changes under a running test session. The cache is new and empty, so
     nothing computed by other code can be read back.
     """
-    from optimizer import dwell
+    from optimizer.dwell import table as dwell
 
     salt = dwell._physics_salt()
     with pytest.MonkeyPatch.context() as patch:
@@ -248,7 +248,7 @@ def test_plan_demo_every_plot_present_and_drawn(demo_plan):
     # utilisation + a timeline per shift + a temperature plot per planned product
     assert len(page.images) == 1 + len(shifts) + len(products)
     # the report's own figure helpers with nothing to draw: axes, labels, grid, legend
-    from optimizer.report import figure_png, timeline_figure, utilisation_figure
+    from optimizer.reporting.html import figure_png, timeline_figure, utilisation_figure
 
     utilisation = pd.read_csv(out / "utilisation.csv")
     blanks = [
@@ -279,7 +279,7 @@ def test_plan_demo_report_carries_caution_hash_and_version(demo_plan, plant):
     _, out, _ = demo_plan
     text = (out / "report.html").read_text(encoding="utf-8")
     assert sha256(plant) in text
-    from optimizer.cli import tool_version
+    from optimizer.cli.app import tool_version
 
     assert tool_version() in text
     for phrase in (
@@ -608,7 +608,7 @@ def terminal_env(monkeypatch):
     ],
 )
 def test_progress_bar_only_on_a_terminal(tty, options, shown, monkeypatch, terminal_env):
-    from optimizer.cli import Ui
+    from optimizer.cli.app import Ui
 
     stream = Terminal() if tty else io.StringIO()
     monkeypatch.setattr(sys, "stdout", stream)
@@ -692,8 +692,8 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
     through the shortest and the longest wait before the belt, at the planned
     belt speed.
     """
-    from optimizer import dwell
-    from optimizer.scenario import load_scenario
+    from optimizer.dwell import table as dwell
+    from optimizer.scenario.models import load_scenario
     from thermal import process
 
     code, out, _ = demo_plan
@@ -753,7 +753,7 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
 def test_out_of_range_warnings_become_one_note_per_kind():
     import warnings
 
-    from optimizer.cli import _validity_notes
+    from optimizer.cli.app import _validity_notes
     from thermal.errors import ValidityWarning
 
     counts: dict[str, int] = {}

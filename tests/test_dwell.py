@@ -16,9 +16,9 @@ from typing import Any
 import pandas as pd
 import pytest
 
-import optimizer.dwell as dwell
-from optimizer.dwell import COLUMNS, SolverOptions, build_dwell_table
-from optimizer.scenario import scenario_from_dict
+import optimizer.dwell.table as dwell
+from optimizer.dwell.table import COLUMNS, SolverOptions, build_dwell_table
+from optimizer.scenario.models import scenario_from_dict
 
 FAST = SolverOptions(cells_1d=6, steps=12, tolerance=2e-2)
 
@@ -550,7 +550,7 @@ def test_csv_and_rich_rendering(table, tmp_path):
 
 
 def test_plan_inputs_accepts_the_real_table(table):
-    from optimizer.adapter import plan_inputs
+    from optimizer.planning.adapter import plan_inputs
 
     inputs = plan_inputs(_scenario(), table)
     assert len(inputs.dwell) == len(table)

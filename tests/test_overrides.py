@@ -5,7 +5,13 @@ from __future__ import annotations
 import pytest
 import yaml
 
-from optimizer.overrides import Change, OverrideError, apply_changes, load_raw, parse_assignment
+from optimizer.scenario.overrides import (
+    Change,
+    OverrideError,
+    apply_changes,
+    load_raw,
+    parse_assignment,
+)
 
 BASE = {
     "name": "plant",

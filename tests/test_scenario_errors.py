@@ -20,8 +20,8 @@ from typing import Any
 import pytest
 import yaml
 
-from optimizer.cli import main
-from optimizer.scenario import ScenarioError, load_scenario, scenario_from_dict
+from optimizer.cli.app import main
+from optimizer.scenario.models import ScenarioError, load_scenario, scenario_from_dict
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 DEMO = yaml.safe_load((CONFIGS / "demo.yaml").read_text(encoding="utf-8"))

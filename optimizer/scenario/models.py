@@ -5,7 +5,7 @@ their air settings, its cooling tunnels (zones, loading options, which ovens
 feed them), the products (shape and size of the nominal and the largest
 piece, composition or measured properties, cook and chill rules), the shifts
 of the planning horizon and the orders. :func:`load_scenario` reads it,
-converts every dimensional value once (see :mod:`optimizer.units` for the
+converts every dimensional value once (see :mod:`optimizer.scenario.units` for the
 unit of plain numbers in each kind of field) and checks everything before
 anything is computed or written. All problems are reported together, one
 line each, naming the field path and what is accepted::
@@ -15,10 +15,10 @@ line each, naming the field path and what is accepted::
 
 Units inside a validated :class:`Scenario`: temperatures °C, times minutes,
 lengths m, air speeds m/s, belt speeds m/min, masses kg, h W/(m² K),
-fractions 0..1 (see :mod:`optimizer.units`).
+fractions 0..1 (see :mod:`optimizer.scenario.units`).
 
 Rules come from a small library of named rule sets shipped in
-``optimizer/data/rules.yaml`` (each with its published source; examples to be
+``optimizer/scenario/data/rules.yaml`` (each with its published source; examples to be
 checked against the plant's food-safety plan and local codes), from a
 ``rules:`` section of the scenario, or inline in a product.
 """
@@ -52,7 +52,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
-from optimizer.units import KINDS, UnitParseError, parse_quantity
+from optimizer.scenario.units import KINDS, UnitParseError, parse_quantity
 
 __all__ = [
     "BlockGeometry",
@@ -603,13 +603,17 @@ ChillRuleRef = Annotated[
 
 @lru_cache(maxsize=1)
 def _builtin_rules_raw() -> dict[str, Any]:
-    text = resources.files("optimizer").joinpath("data/rules.yaml").read_text(encoding="utf-8")
+    text = (
+        resources.files("optimizer.scenario")
+        .joinpath("data/rules.yaml")
+        .read_text(encoding="utf-8")
+    )
     data = yaml.safe_load(text)
     return dict(data["rules"])
 
 
 def builtin_rules() -> dict[str, CookRuleSpec | ChillRuleSpec | FreezeRuleSpec]:
-    """The named rule sets shipped in ``optimizer/data/rules.yaml``.
+    """The named rule sets shipped in ``optimizer/scenario/data/rules.yaml``.
 
     These are examples with their published sources; check them against the
     plant's food-safety plan and local codes before use.
@@ -1310,7 +1314,7 @@ def _physics_problems(
     Catches what only the physics can judge, e.g. a relative humidity that
     air above 100 °C cannot hold at atmospheric pressure.
     """
-    from optimizer.dwell import air_setting, thermal_properties
+    from optimizer.dwell.table import air_setting, thermal_properties
     from thermal.errors import ThermalInputError
 
     out: list[str] = []
@@ -1625,14 +1629,14 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
 def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
     """Read and validate a scenario file.
 
-    ``extends`` chains and ``changes`` (see :mod:`optimizer.overrides`) are
+    ``extends`` chains and ``changes`` (see :mod:`optimizer.scenario.overrides`) are
     resolved first; then every value is converted and checked.
 
     Parameters
     ----------
     path : str or Path
         Scenario YAML file.
-    changes : iterable of optimizer.overrides.Change
+    changes : iterable of optimizer.scenario.overrides.Change
         Dotted-path changes applied after the file (``--set``).
 
     Returns
@@ -1645,7 +1649,7 @@ def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
     ScenarioError
         All problems at once, one line each; nothing has been computed or written.
     """
-    from optimizer.overrides import OverrideError, load_raw
+    from optimizer.scenario.overrides import OverrideError, load_raw
 
     try:
         raw = load_raw(path, changes)
@@ -1672,7 +1676,9 @@ def _name_first(node: Any) -> Any:
 
 
 def dump_scenario(scenario: Scenario, path: str | Path) -> None:
-    """Write ``scenario`` as YAML (numbers in documented units; see :mod:`optimizer.units`).
+    """Write ``scenario`` as YAML (numbers in documented units).
+
+    See :mod:`optimizer.scenario.units` for the unit of each kind of field.
 
     Parameters
     ----------

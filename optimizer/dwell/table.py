@@ -83,7 +83,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from optimizer.scenario import (
+from optimizer.scenario.models import (
     BlockGeometry,
     ChillRuleSpec,
     CookRuleSpec,
@@ -100,7 +100,7 @@ from optimizer.scenario import (
     Tunnel,
     TunnelSetting,
 )
-from optimizer.units import minutes_to_seconds, seconds_to_minutes
+from optimizer.scenario.units import minutes_to_seconds, seconds_to_minutes
 
 __all__ = [
     "CACHE_VERSION",
@@ -739,7 +739,7 @@ def build_dwell_table(
     Parameters
     ----------
     scenario : Scenario
-        A validated scenario (:func:`optimizer.scenario.load_scenario`).
+        A validated scenario (:func:`optimizer.scenario.models.load_scenario`).
     cache_dir : str or Path or None
         Directory of the on-disk cache; created when first written. ``None``
         computes everything and writes nothing.
