@@ -62,6 +62,15 @@ whole table. A second build of the same scenario reads one file; changing a
 product's size, an air temperature or a rule recomputes only the cells that
 depend on it. Files are written atomically (temporary file, then rename).
 
+Computing
+---------
+The cells missing from the cache are computed together: first every missing
+cook cell, then every missing chill cell, each cell's search a solver job
+(:mod:`thermal.jobs`) whose simulations run batched with the other cells'
+(one solver call per round of the searches and per grid). A cell's value
+does not depend on which other cells are computed with it, so a full build,
+a partial recompute and a build on several workers give the same table.
+
 CAUTION: the figures are model estimates for the piece sizes entered. The
 rules come from the plant's food-safety plan and local codes; validate any
 plan with calibrated probes in the thickest pieces at the coldest spot.
