@@ -100,6 +100,7 @@ __all__ = [
     "StageSpan",
     "TransferStage",
     "TunnelZone",
+    "check_stages",
     "cook_and_chill",
     "required_chill",
     "required_chill_job",
@@ -993,6 +994,13 @@ def _check_zones(zones: Sequence[TunnelZone]) -> tuple[TunnelZone, ...]:
     return zones
 
 
+def _stage_surface(product: Any, stage: TransferStage | TunnelZone, t_start: float) -> _Surface:
+    """Surface of a transfer or tunnel zone for a product entering at ``t_start`` [°C]."""
+    return _surface(
+        product, stage.air, stage.loading_factor, 0.5 * (t_start + float(stage.air.temperature))
+    )
+
+
 def _zone_segments(zsurfs, zones, tau):
     """Zone segments for residences ``tau`` (one per batch member) [s]."""
     segs = []
@@ -1102,20 +1110,8 @@ def required_chill_job(
             f"tunnel air at {coldest:.1f} °C cannot bring the core to {target:.1f} °C",
         )
 
-    tsurf = (
-        _surface(
-            product,
-            transfer.air,
-            transfer.loading_factor,
-            0.5 * (t_start + float(transfer.air.temperature)),
-        )
-        if transfer is not None
-        else None
-    )
-    zsurfs = [
-        _surface(product, z.air, z.loading_factor, 0.5 * (t_start + float(z.air.temperature)))
-        for z in zones
-    ]
+    tsurf = _stage_surface(product, transfer, t_start) if transfer is not None else None
+    zsurfs = [_stage_surface(product, z, t_start) for z in zones]
     # The transfer is the same for every residence: run it once.
     if transfer is not None:
         assert tsurf is not None
@@ -1297,6 +1293,52 @@ def required_chill(
     return run_job(required_chill_job(product, initial, transfer, zones, rule, **options))
 
 
+def check_stages(
+    product: Any,
+    t_start: float,
+    *,
+    oven: Any = None,
+    transfer: TransferStage | None = None,
+    zones: Sequence[TunnelZone] | None = None,
+) -> None:
+    """Make every input check the solvers make for these stages, without solving.
+
+    Builds what :func:`required_cook`, :func:`required_chill` and
+    :func:`run_stages` build before their first step: the surface conditions
+    of every stage (h from the correlation registry, so a Reynolds or
+    Rayleigh number out of reach or a loading factor out of range shows up)
+    and the zone checks (shares, air getting warmer). Cheap: no heat
+    conduction is solved.
+
+    Parameters
+    ----------
+    product : Product
+        The product (largest piece).
+    t_start : float
+        Product temperature entering the first stage given [°C]; it sets the
+        film temperature of the surface conditions, as in the solvers.
+    oven : AirSetting or OvenStage, optional
+        Oven stage.
+    transfer : TransferStage, optional
+        Transfer in room air.
+    zones : sequence of TunnelZone, optional
+        Tunnel zones in belt order.
+
+    Raises
+    ------
+    ThermalInputError
+        The first input the solvers would refuse, named as they name it.
+    """
+    t0 = float(temperature_c("t_start", t_start))
+    if oven is not None:
+        _oven_surfaces(product, oven if isinstance(oven, OvenStage) else OvenStage(oven), t0)
+    if transfer is not None:
+        _stage_surface(product, transfer, t0)
+    if zones is not None:
+        for zone in _check_zones(zones):
+            _stage_surface(product, zone, t0)
+
+
 # --------------------------------------------------------------------------- forward runs
 
 
@@ -1375,12 +1417,7 @@ def run_stages_job(
         total += dwell
         t_start = float(oven.air.temperature)
     if transfer is not None:
-        s = _surface(
-            product,
-            transfer.air,
-            transfer.loading_factor,
-            0.5 * (t_start + float(transfer.air.temperature)),
-        )
+        s = _stage_surface(product, transfer, t_start)
         segs.append(s.segment(float(transfer.duration)))
         names.append("transfer")
         surfaces.append(s)
@@ -1389,9 +1426,7 @@ def run_stages_job(
         zones = _check_zones(zones)
         residence = float(positive("residence [s]", residence))
         for i, z in enumerate(zones):
-            s = _surface(
-                product, z.air, z.loading_factor, 0.5 * (t_start + float(z.air.temperature))
-            )
+            s = _stage_surface(product, z, t_start)
             segs.append(s.segment(residence * float(z.share)))
             names.append(f"zone {i + 1}")
             surfaces.append(s)

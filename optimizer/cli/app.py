@@ -305,7 +305,11 @@ def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
     try:
         return load_scenario(path, changes)
     except ScenarioError as exc:
-        raise BadInput([f"{path_text}: {p}" for p in _problems(exc)]) from exc
+        # a line about the file itself names it already (the extends chain too)
+        own = (f"{path_text}: ", f"{Path(path).resolve()}: ")
+        raise BadInput(
+            [p if p.startswith(own) else f"{path_text}: {p}" for p in _problems(exc)]
+        ) from exc
 
 
 def _problems(exc: BaseException) -> list[str]:

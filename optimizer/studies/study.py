@@ -111,7 +111,6 @@ from pathlib import Path
 from typing import Any, Literal
 
 import pandas as pd
-import yaml
 from pydantic import (
     BaseModel,
     ConfigDict,
@@ -923,16 +922,12 @@ def physics_signature(raw: Mapping[str, Any]) -> str:
 
 
 def _read_study_file(path: Path) -> Any:
+    from optimizer.scenario.overrides import OverrideError, read_yaml_file
+
     try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise StudyError([f"{path}: cannot read file ({exc.strerror})"]) from None
-    try:
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        line = f" at line {mark.line + 1}" if mark is not None else ""
-        raise StudyError([f"{path}: not valid YAML{line}"]) from None
+        data = read_yaml_file(path)
+    except OverrideError as exc:
+        raise StudyError([str(exc)]) from None
     if not isinstance(data, dict):
         raise StudyError([f"{path}: must hold a mapping of study fields (base, grid or points)"])
     return data
