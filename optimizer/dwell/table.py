@@ -62,6 +62,15 @@ whole table. A second build of the same scenario reads one file; changing a
 product's size, an air temperature or a rule recomputes only the cells that
 depend on it. Files are written atomically (temporary file, then rename).
 
+Computing
+---------
+The cells missing from the cache are computed together: first every missing
+cook cell, then every missing chill cell, each cell's search a solver job
+(:mod:`thermal.jobs`) whose simulations run batched with the other cells'
+(one solver call per round of the searches and per grid). A cell's value
+does not depend on which other cells are computed with it, so a full build,
+a partial recompute and a build on several workers give the same table.
+
 CAUTION: the figures are model estimates for the piece sizes entered. The
 rules come from the plant's food-safety plan and local codes; validate any
 plan with calibrated probes in the thickest pieces at the coldest spot.
@@ -70,12 +79,10 @@ plan with calibrated probes in the thickest pieces at the coldest spot.
 from __future__ import annotations
 
 import math
-import multiprocessing
 import os
 import tempfile
 import warnings
-from collections.abc import Callable, Iterable, Sequence
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from collections.abc import Callable, Generator, Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -106,7 +113,6 @@ from optimizer.scenario.models import (
     TunnelSetting,
 )
 from optimizer.scenario.units import minutes_to_seconds, seconds_to_minutes
-from thermal import numeric, process
 
 __all__ = [
     "COLUMNS",
@@ -267,36 +273,40 @@ def _notes(caught: Iterable[warnings.WarningMessage]) -> list[str]:
 
 def _compute_cook(
     scenario: Scenario, product: Product, setting: OvenSetting, options: SolverOptions
-) -> dict[str, Any]:
-    """Compute one cook cell (no cache): the result as plain data."""
+) -> Generator[Any, Any, dict[str, Any]]:
+    """The computation of one cook cell (no cache), as a solver job.
+
+    The job (:mod:`thermal.jobs`) yields its simulations and returns the
+    cell as plain data; its ``notes`` come from the warnings the job raised
+    (added by :func:`_run_jobs`).
+    """
+    from thermal import process
+
     margin = scenario.safety_margin
     rule = cook_rule(
         scenario.cook_rule(product), product.initial_temperature, margin.core_temperature
     )
     piece = thermal_product(product, emissivity=setting.emissivity)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            res = process.required_cook(
-                piece,
-                air_setting(setting),
-                rule,
-                product.initial_temperature,
-                margin=process.Margin(relative=margin.time_fraction),
-                max_dwell=minutes_to_seconds(options.max_dwell_min),
-                n_cells=options.cells(len(piece.geometry.directions)),
-                steps=options.steps,
-            )
-        except process.InfeasibleRuleError as exc:
-            return {
-                "feasible": False,
-                "minutes": math.nan,
-                "binding": exc.clause,
-                "reason": f"cook: {exc.reason}",
-                "method": "",
-                "heat_in_kj_per_kg": math.nan,
-                "notes": _notes(caught),
-            }
+    try:
+        res = yield from process.required_cook_job(
+            piece,
+            air_setting(setting),
+            rule,
+            product.initial_temperature,
+            margin=process.Margin(relative=margin.time_fraction),
+            max_dwell=minutes_to_seconds(options.max_dwell_min),
+            n_cells=options.cells(len(piece.geometry.directions)),
+            steps=options.steps,
+        )
+    except process.InfeasibleRuleError as exc:
+        return {
+            "feasible": False,
+            "minutes": math.nan,
+            "binding": exc.clause,
+            "reason": f"cook: {exc.reason}",
+            "method": "",
+            "heat_in_kj_per_kg": math.nan,
+        }
     profile = res.exit_profile
     return {
         "feasible": True,
@@ -311,7 +321,6 @@ def _compute_cook(
             "temperature": np.asarray(profile.temperature).tolist(),
             "density": None if profile.density is None else np.asarray(profile.density).tolist(),
         },
-        "notes": _notes(caught),
     }
 
 
@@ -323,14 +332,17 @@ def _compute_chill(
     setting: TunnelSetting,
     factor: float,
     options: SolverOptions,
-) -> dict[str, Any]:
-    """Compute one chill cell from a feasible cook cell (no cache).
+) -> Generator[Any, Any, dict[str, Any]]:
+    """The computation of one chill cell from a feasible cook cell (no cache), as a job.
 
     The residence is searched with the shortest wait before the belt (the
     transfer duration: hottest entry); when the hot-hold limit is longer, one
     more run at that residence with the longest wait checks the cooling
-    windows, which a long wait in room air can break.
+    windows, which a long wait in room air can break. Notes as for
+    :func:`_compute_cook`.
     """
+    from thermal import numeric, process
+
     margin = scenario.safety_margin
     rule = chill_rule(scenario.chill_rule(product), margin.core_temperature)
     piece = thermal_product(product)
@@ -341,56 +353,51 @@ def _compute_chill(
     )
     zones = tunnel_zones(tunnel, setting, factor)
     waits = _hold_waits(tunnel)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            res = process.required_chill(
-                piece,
-                start,
-                transfer_stage(tunnel.transfer, waits[0]),
-                zones,
-                rule,
-                margin=process.Margin(relative=margin.time_fraction),
-                max_residence=minutes_to_seconds(options.max_residence_min),
-                steps=options.steps,
-                tolerance=options.tolerance,
+    try:
+        res = yield from process.required_chill_job(
+            piece,
+            start,
+            transfer_stage(tunnel.transfer, waits[0]),
+            zones,
+            rule,
+            margin=process.Margin(relative=margin.time_fraction),
+            max_residence=minutes_to_seconds(options.max_residence_min),
+            steps=options.steps,
+            tolerance=options.tolerance,
+        )
+    except process.InfeasibleRuleError as exc:
+        when = f" (after a {waits[0]:g} min wait before the belt)" if waits[0] else ""
+        return _ruled_out_chill(exc.clause, f"chill: {exc.reason}{when}")
+    if len(waits) > 1:
+        hist, _ = yield from process.run_stages_job(
+            piece,
+            start,
+            None,
+            0.0,
+            transfer_stage(tunnel.transfer, waits[-1]),
+            zones,
+            res.residence,
+            steps=options.steps,
+        )
+        verdict = rule.check(hist.times, hist.core)
+        if not verdict.met:
+            return _ruled_out_chill(
+                verdict.binding,
+                f"chill: {verdict.reason} when a batch waits the full hot-hold limit "
+                f"({waits[-1]:g} min) before the belt",
             )
-        except process.InfeasibleRuleError as exc:
-            when = f" (after a {waits[0]:g} min wait before the belt)" if waits[0] else ""
-            return _ruled_out_chill(exc.clause, f"chill: {exc.reason}{when}", _notes(caught))
-        cell = {
-            "feasible": True,
-            "minutes": seconds_to_minutes(res.residence),
-            "required_minutes": seconds_to_minutes(res.required_residence),
-            "binding": res.binding,
-            "reason": "",
-            "method": res.method,
-            "heat_out_kj_per_kg": res.heat_out / 1000.0,
-        }
-        if len(waits) > 1:
-            hist, _ = process.run_stages(
-                piece,
-                start,
-                None,
-                0.0,
-                transfer_stage(tunnel.transfer, waits[-1]),
-                zones,
-                res.residence,
-                steps=options.steps,
-            )
-            verdict = rule.check(hist.times, hist.core)
-            if not verdict.met:
-                return _ruled_out_chill(
-                    verdict.binding,
-                    f"chill: {verdict.reason} when a batch waits the full hot-hold limit "
-                    f"({waits[-1]:g} min) before the belt",
-                    _notes(caught),
-                )
-    cell["notes"] = _notes(caught)
-    return cell
+    return {
+        "feasible": True,
+        "minutes": seconds_to_minutes(res.residence),
+        "required_minutes": seconds_to_minutes(res.required_residence),
+        "binding": res.binding,
+        "reason": "",
+        "method": res.method,
+        "heat_out_kj_per_kg": res.heat_out / 1000.0,
+    }
 
 
-def _ruled_out_chill(binding: str, reason: str, notes: list[str]) -> dict[str, Any]:
+def _ruled_out_chill(binding: str, reason: str) -> dict[str, Any]:
     return {
         "feasible": False,
         "minutes": math.nan,
@@ -398,7 +405,6 @@ def _ruled_out_chill(binding: str, reason: str, notes: list[str]) -> dict[str, A
         "reason": reason,
         "method": "numeric",
         "heat_out_kj_per_kg": math.nan,
-        "notes": notes,
     }
 
 
@@ -452,34 +458,95 @@ class _Task:
     chills: tuple[tuple[str, str, str, float], ...]  # (key, tunnel, tunnel setting, factor)
 
 
-def _run_task(
-    scenario: Scenario, task: _Task, cache: Path | None, options: SolverOptions
-) -> tuple[dict[str, Any], dict[str, dict[str, Any]], int]:
-    """Compute (or read) one task; returns (cook, {chill key: chill}, cells computed)."""
-    product = scenario.product(task.product)
-    setting = next(st for st in scenario.oven(task.oven).settings if st.name == task.setting)
-    computed = 0
-    name = f"cook-{task.cook_key}.json"
-    cook = read_entry(cache, name)
-    if cook is None:
-        cook = _compute_cook(scenario, product, setting, options)
-        write_entry(cache, name, cook)
-        computed += 1
-    chills: dict[str, dict[str, Any]] = {}
-    for key, tunnel_name, tset_name, factor in task.chills:
-        if not cook["feasible"]:
-            chills[key] = _NOT_COMPUTED
+def _run_jobs(
+    jobs: list[Generator[Any, Any, dict[str, Any]]],
+    done: Callable[[int], None],
+) -> list[dict[str, Any]]:
+    """Run cell jobs with their simulations batched; each cell gets the notes of its warnings.
+
+    ``done(i)`` is called as job ``i`` finishes. The first error that is not
+    a ruled-out rule is raised once every job has ended.
+    """
+    from thermal.jobs import run_jobs
+
+    outcomes = run_jobs(jobs, lambda i, _: done(i))
+    for outcome in outcomes:
+        if outcome.error is not None:
+            raise outcome.error
+    return [{**o.value, "notes": _notes(o.warnings)} for o in outcomes]
+
+
+def _run_tasks(
+    scenario: Scenario,
+    tasks: Sequence[_Task],
+    cache: Path | None,
+    options: SolverOptions,
+    progress: Callable[[_Task], None] | None = None,
+) -> tuple[dict[str, dict[str, Any]], dict[str, dict[str, Any]]]:
+    """Compute (or read) the cells of ``tasks``: ({cook key: cook}, {chill key: chill}).
+
+    Cells read from the cache are not recomputed; the missing cook cells run
+    as one set of batched jobs, then the missing chill cells (which start
+    from the cook cells' exit states) as another. ``progress(task)`` is
+    called once a task's cook and chill cells are all known.
+    """
+    cooks: dict[str, dict[str, Any]] = {}
+    todo: list[_Task] = []
+    for task in tasks:
+        if task.cook_key in cooks or any(t.cook_key == task.cook_key for t in todo):
             continue
-        name = f"chill-{key}.json"
-        chill = read_entry(cache, name)
-        if chill is None:
-            tunnel = scenario.tunnel(tunnel_name)
-            tset = next(st for st in tunnel.settings if st.name == tset_name)
-            chill = _compute_chill(scenario, product, cook, tunnel, tset, factor, options)
-            write_entry(cache, name, chill)
-            computed += 1
+        cook = read_entry(cache, f"cook-{task.cook_key}.json")
+        if cook is None:
+            todo.append(task)
+        else:
+            cooks[task.cook_key] = cook
+    jobs = []
+    for task in todo:
+        setting = next(st for st in scenario.oven(task.oven).settings if st.name == task.setting)
+        jobs.append(_compute_cook(scenario, scenario.product(task.product), setting, options))
+    for task, cook in zip(todo, _run_jobs(jobs, lambda i: None), strict=True):
+        write_entry(cache, f"cook-{task.cook_key}.json", cook)
+        cooks[task.cook_key] = cook
+
+    chills: dict[str, dict[str, Any]] = {}
+    missing: dict[str, tuple[_Task, str, str, float]] = {}
+    waiting = {id(task): 0 for task in tasks}
+    for task in tasks:
+        cook = cooks[task.cook_key]
+        for key, tunnel_name, tset_name, factor in task.chills:
+            if key in chills or key in missing:
+                continue
+            chill = (
+                _NOT_COMPUTED if not cook["feasible"] else read_entry(cache, f"chill-{key}.json")
+            )
+            if chill is None:
+                missing[key] = (task, tunnel_name, tset_name, factor)
+            else:
+                chills[key] = chill
+    for task in tasks:
+        waiting[id(task)] = sum(key in missing for key, *_ in task.chills)
+        if not waiting[id(task)] and progress is not None:
+            progress(task)
+    jobs = []
+    for task, tunnel_name, tset_name, factor in missing.values():
+        tunnel = scenario.tunnel(tunnel_name)
+        tset = next(st for st in tunnel.settings if st.name == tset_name)
+        product = scenario.product(task.product)
+        cook = cooks[task.cook_key]
+        jobs.append(_compute_chill(scenario, product, cook, tunnel, tset, factor, options))
+    keys = list(missing)
+
+    def chill_done(i: int) -> None:
+        for task in tasks:
+            if any(key == keys[i] for key, *_ in task.chills):
+                waiting[id(task)] -= 1
+                if not waiting[id(task)] and progress is not None:
+                    progress(task)
+
+    for key, chill in zip(keys, _run_jobs(jobs, chill_done), strict=True):
+        write_entry(cache, f"chill-{key}.json", chill)
         chills[key] = chill
-    return cook, chills, computed
+    return cooks, chills
 
 
 def _default_workers(n_tasks: int) -> int:
@@ -558,39 +625,48 @@ def build_dwell_table(
         return _frame(cached)
 
     tasks = [_Task(*ck, cook_keys[ck], tuple(chills_of[ck].values())) for ck in cook_keys]
-    cooks: dict[tuple[str, str, str], dict[str, Any]] = {}
+    cooks: dict[str, dict[str, Any]] = {}
     chills: dict[str, dict[str, Any]] = {}
     done = 0
 
-    def finished(task: _Task, result: tuple[dict[str, Any], dict[str, dict[str, Any]], int]):
+    def finished(task: _Task) -> None:
         nonlocal done
-        cooks[(task.product, task.oven, task.setting)] = result[0]
-        chills.update(result[1])
         done += 1 + len(task.chills)
         if progress is not None:
             progress(done, total, f"{task.product} in {task.oven}/{task.setting}")
 
     n_workers = _default_workers(len(tasks)) if workers is None else max(1, int(workers))
-    if n_workers == 1:
-        for task in tasks:
-            finished(task, _run_task(scenario, task, cache, options))
+    n_workers = min(n_workers, len(tasks))
+    if n_workers <= 1:
+        cooks, chills = _run_tasks(scenario, tasks, cache, options, finished)
     else:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor, as_completed
+
         # fork where the platform has it: workers only compute (no terminal output), and
         # fork does not re-run the caller's main script as spawn would
         methods = multiprocessing.get_all_start_methods()
         context = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+        # a fixed share of the tasks per worker; a cell's value does not depend on the
+        # other cells batched with it, so neither the split nor the timing matters
+        shares = [tasks[i::n_workers] for i in range(n_workers)]
         with ProcessPoolExecutor(max_workers=n_workers, mp_context=context) as pool:
             futures = {
-                pool.submit(_run_task, scenario, task, cache, options): task for task in tasks
+                pool.submit(_run_tasks, scenario, share, cache, options): share for share in shares
             }
             for future in as_completed(futures):
-                finished(futures[future], future.result())
+                part_cooks, part_chills = future.result()
+                cooks.update(part_cooks)
+                chills.update(part_chills)
+                for task in futures[future]:
+                    finished(task)
 
     rows = []
     for product, oven, oset, tunnel, tset, loading in cells:
         ck = (product.name, oven.name, oset.name)
         chill = chills[chill_keys[(*ck, tunnel.name, tset.name, loading.name)]]
-        rows.append(_row(product, oven, oset, tunnel, tset, loading, cooks[ck], chill))
+        cook = cooks[cook_keys[ck]]
+        rows.append(_row(product, oven, oset, tunnel, tset, loading, cook, chill))
     write_entry(cache, f"table-{table_key}.json", rows)
     return _frame(rows)
 
