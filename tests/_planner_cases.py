@@ -6,7 +6,7 @@ import math
 
 import pandas as pd
 
-from optimizer.inputs import (
+from optimizer.planning.inputs import (
     LoadingOption,
     Objective,
     OrderData,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from optimizer.sweep_exec import SweepPoint
+from optimizer.studies.execute import SweepPoint
 
 
 def square_point(point: SweepPoint) -> dict:

@@ -32,7 +32,7 @@ import pandas as pd
 import pytest
 import yaml
 
-from optimizer.cli import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
+from optimizer.cli.app import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
 from tests._png import DRAWN_MIN, coloured_share, png_of_data_uri
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -187,11 +187,11 @@ def cache(tmp_path_factory) -> Path:
     tree changes under a running test session. The cache is new and empty, so
     nothing computed by other code can be read back.
     """
-    from optimizer import dwell
+    from optimizer.dwell import table as dwell
 
-    salt = dwell._physics_salt()
+    salt = dwell.physics_salt()
     with pytest.MonkeyPatch.context() as patch:
-        patch.setattr(dwell, "_physics_salt", lambda: salt)
+        patch.setattr(dwell, "physics_salt", lambda: salt)
         yield tmp_path_factory.mktemp("dwell-cache")
 
 
@@ -248,7 +248,7 @@ def test_plan_demo_every_plot_present_and_drawn(demo_plan):
     # utilisation + a timeline per shift + a temperature plot per planned product
     assert len(page.images) == 1 + len(shifts) + len(products)
     # the report's own figure helpers with nothing to draw: axes, labels, grid, legend
-    from optimizer.report import figure_png, timeline_figure, utilisation_figure
+    from optimizer.reporting.html import figure_png, timeline_figure, utilisation_figure
 
     utilisation = pd.read_csv(out / "utilisation.csv")
     blanks = [
@@ -279,7 +279,7 @@ def test_plan_demo_report_carries_caution_hash_and_version(demo_plan, plant):
     _, out, _ = demo_plan
     text = (out / "report.html").read_text(encoding="utf-8")
     assert sha256(plant) in text
-    from optimizer.cli import tool_version
+    from optimizer.cli.app import tool_version
 
     assert tool_version() in text
     for phrase in (
@@ -608,7 +608,7 @@ def terminal_env(monkeypatch):
     ],
 )
 def test_progress_bar_only_on_a_terminal(tty, options, shown, monkeypatch, terminal_env):
-    from optimizer.cli import Ui
+    from optimizer.cli.app import Ui
 
     stream = Terminal() if tty else io.StringIO()
     monkeypatch.setattr(sys, "stdout", stream)
@@ -692,8 +692,9 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
     through the shortest and the longest wait before the belt, at the planned
     belt speed.
     """
-    from optimizer import dwell
-    from optimizer.scenario import load_scenario
+    from optimizer.dwell import convert, stages
+    from optimizer.dwell import table as dwell
+    from optimizer.scenario.models import load_scenario
     from thermal import process
 
     code, out, _ = demo_plan
@@ -711,12 +712,12 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
         setting = next(s for s in ovens[row.oven].settings if s.name == row.setting)
         for name in (n.strip() for n in row.products.split(",")):
             spec = products[name]
-            rule = dwell.cook_rule(scenario.cook_rule(spec), spec.initial_temperature, 0.0)
-            piece = dwell.thermal_product(spec, emissivity=setting.emissivity)
+            rule = convert.cook_rule(scenario.cook_rule(spec), spec.initial_temperature, 0.0)
+            piece = convert.thermal_product(spec, emissivity=setting.emissivity)
             hist, final = process.run_stages(
                 piece,
                 spec.initial_temperature,
-                process.OvenStage(dwell.air_setting(setting)),
+                process.OvenStage(convert.air_setting(setting)),
                 row.cook_min * 60.0,
             )
             verdict = rule.check(hist.times, hist.core, hist.surface_max)
@@ -730,17 +731,17 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
         tunnel = tunnels[run.tunnel]
         setting = next(s for s in tunnel.settings if s.name == run.tunnel_setting)
         loading = next(opt for opt in tunnel.loadings if opt.name == run.loading)
-        zones = dwell.tunnel_zones(tunnel, setting, dwell._loading_factor(loading))
-        rule = dwell.chill_rule(scenario.chill_rule(spec), 0.0)
+        zones = stages.tunnel_zones(tunnel, setting, convert.loading_factor(loading))
+        rule = convert.chill_rule(scenario.chill_rule(spec), 0.0)
         _, start = exit_profile[(run.shift, run.product, run.oven, run.oven_setting)]
         residence = tunnel.length / run.belt_speed_m_per_min * 60.0
         for wait in dwell._hold_waits(tunnel):
             hist, _ = process.run_stages(
-                dwell.thermal_product(spec),
+                convert.thermal_product(spec),
                 start,
                 None,
                 0.0,
-                dwell._transfer(tunnel.transfer, wait),
+                stages.transfer_stage(tunnel.transfer, wait),
                 zones,
                 residence,
             )
@@ -753,7 +754,7 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
 def test_out_of_range_warnings_become_one_note_per_kind():
     import warnings
 
-    from optimizer.cli import _validity_notes
+    from optimizer.cli.app import _validity_notes
     from thermal.errors import ValidityWarning
 
     counts: dict[str, int] = {}

@@ -16,9 +16,10 @@ from typing import Any
 import pandas as pd
 import pytest
 
-import optimizer.dwell as dwell
-from optimizer.dwell import COLUMNS, SolverOptions, build_dwell_table
-from optimizer.scenario import scenario_from_dict
+import optimizer.dwell.table as dwell
+from optimizer.cli.app import render_dwell_table
+from optimizer.dwell.table import COLUMNS, SolverOptions, build_dwell_table
+from optimizer.scenario.models import scenario_from_dict
 
 FAST = SolverOptions(cells_1d=6, steps=12, tolerance=2e-2)
 
@@ -496,8 +497,8 @@ def test_second_build_reads_one_table_file(counters, tmp_path, monkeypatch):
     names = _files(cache)
     assert {n.split("-")[0] for n in names} == {"cook", "chill", "table"}
     reads: list[str] = []
-    real = dwell._read
-    monkeypatch.setattr(dwell, "_read", lambda c, n: reads.append(n) or real(c, n))
+    real = dwell.read_entry
+    monkeypatch.setattr(dwell, "read_entry", lambda c, n: reads.append(n) or real(c, n))
     counters.update(cook=0, chill=0)
     again = build_dwell_table(_one_cell(), cache_dir=cache, options=FAST, workers=1)
     assert counters == {"cook": 0, "chill": 0}
@@ -541,7 +542,7 @@ def test_csv_and_rich_rendering(table, tmp_path):
     assert list(back.columns) == list(COLUMNS) and len(back) == len(table)
     assert back["cook_min"].to_numpy() == pytest.approx(table["cook_min"].to_numpy(), rel=1e-5)
     assert [p.name for p in tmp_path.iterdir()] == ["dwell.csv"]
-    rendered = dwell.render_dwell_table(table, title="t")
+    rendered = render_dwell_table(table, title="t")
     assert rendered.row_count == len(table)
     console = Console(width=200, record=True)
     console.print(rendered)
@@ -550,7 +551,7 @@ def test_csv_and_rich_rendering(table, tmp_path):
 
 
 def test_plan_inputs_accepts_the_real_table(table):
-    from optimizer.adapter import plan_inputs
+    from optimizer.planning.adapter import plan_inputs
 
     inputs = plan_inputs(_scenario(), table)
     assert len(inputs.dwell) == len(table)

@@ -6,7 +6,7 @@ import math
 
 import pytest
 
-from optimizer.finance import annual_margin, npv, purchase_case
+from optimizer.studies.finance import annual_margin, npv, purchase_case
 
 
 def test_payback_and_npv_against_hand_calculation():

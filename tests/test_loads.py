@@ -1,4 +1,4 @@
-"""Candidate batch loads and tunnel routes (optimizer.loads), on hand-made plants.
+"""Candidate batch loads and tunnel routes (optimizer.planning.loads), on hand-made plants.
 
 Plants and numbers are invented for the tests; the expected values are
 worked out by hand in the comments.
@@ -11,7 +11,7 @@ import math
 
 import pytest
 
-from optimizer.inputs import (
+from optimizer.planning.inputs import (
     LoadingOption,
     OrderData,
     OvenData,
@@ -22,7 +22,7 @@ from optimizer.inputs import (
     SolveOptions,
     TunnelData,
 )
-from optimizer.loads import (
+from optimizer.planning.loads import (
     best_shift_pattern,
     candidates,
     close_enough,
@@ -321,7 +321,7 @@ def _two_setting_line(colder_speed_mild: float, objective=None, heat_out_colder=
     From 'hot' the 'colder' setting runs the belt at 1.5 m/min against 1.0;
     from 'mild' at ``colder_speed_mild`` against 1.0 at 'cold'.
     """
-    from optimizer.inputs import Objective
+    from optimizer.planning.inputs import Objective
 
     rows = [
         dwell_row(
@@ -370,7 +370,7 @@ def test_tunnel_setting_beaten_from_every_source_is_pruned():
 
 
 def test_setting_pruning_keeps_heat_out_for_least_energy():
-    from optimizer.inputs import Objective
+    from optimizer.planning.inputs import Objective
 
     # Faster but takes out more heat: pruned for most kg, kept for least energy.
     inp = _two_setting_line(1.2, heat_out_colder=400.0)
@@ -381,8 +381,8 @@ def test_setting_pruning_keeps_heat_out_for_least_energy():
 
 def test_setting_pruning_leaves_the_optimum_unchanged():
     # Solve with and without the pruning: the same best kg (most kg objective).
-    from optimizer import loads
-    from optimizer.solve import plan
+    from optimizer.planning import loads
+    from optimizer.planning.solve import plan
 
     inp = _two_setting_line(1.2)
     pruned = plan(inp, SolveOptions(shadow_prices=False))

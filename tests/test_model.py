@@ -10,11 +10,11 @@ from __future__ import annotations
 
 import pytest
 
-from optimizer.inputs import Objective, OrderData, SolveOptions
-from optimizer.loads import candidates
-from optimizer.model import build_model, demand_groups, to_matrices
-from optimizer.results import SolveStatus
-from optimizer.solve import plan
+from optimizer.planning.inputs import Objective, OrderData, SolveOptions
+from optimizer.planning.loads import candidates
+from optimizer.planning.model import build_model, demand_groups, to_matrices
+from optimizer.planning.results import SolveStatus
+from optimizer.planning.solve import plan
 from tests._planner_cases import dwell_row, one_line
 
 OPT = SolveOptions(shadow_prices=False)
@@ -163,7 +163,7 @@ def test_hot_hold_limits_batch_size():
 
 
 def test_machine_stop_in_one_shift():
-    from optimizer.inputs import PlanInputs, ShiftData
+    from optimizer.planning.inputs import PlanInputs, ShiftData
 
     base = one_line(n_shifts=2)
     shifts = (ShiftData("s1", 480.0), ShiftData("s2", 480.0, {"oven-1": 240.0}))
@@ -195,7 +195,7 @@ def test_model_is_a_minimisation_with_sorted_rows():
 
 
 def _replace_orders(inp, orders):
-    from optimizer.inputs import PlanInputs
+    from optimizer.planning.inputs import PlanInputs
 
     return PlanInputs(
         inp.ovens, inp.tunnels, inp.products, inp.shifts, tuple(orders), inp.dwell, inp.objective
@@ -205,7 +205,7 @@ def _replace_orders(inp, orders):
 def _set_value(inp, name, value):
     from dataclasses import replace
 
-    from optimizer.inputs import PlanInputs
+    from optimizer.planning.inputs import PlanInputs
 
     prods = tuple(replace(p, value_per_kg=value) if p.name == name else p for p in inp.products)
     return PlanInputs(

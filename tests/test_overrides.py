@@ -5,7 +5,13 @@ from __future__ import annotations
 import pytest
 import yaml
 
-from optimizer.overrides import Change, OverrideError, apply_changes, load_raw, parse_assignment
+from optimizer.scenario.overrides import (
+    Change,
+    OverrideError,
+    apply_changes,
+    load_raw,
+    parse_assignment,
+)
 
 BASE = {
     "name": "plant",
@@ -90,7 +96,7 @@ def test_changes_without_extends_and_bad_yaml(tmp_path):
     with pytest.raises(OverrideError, match="without 'extends'"):
         load_raw(tmp_path / "c.yaml")
     (tmp_path / "d.yaml").write_text("name: [unclosed\n")
-    with pytest.raises(OverrideError, match="not valid YAML at line"):
+    with pytest.raises(OverrideError, match=r"line \d+: not valid YAML"):
         load_raw(tmp_path / "d.yaml")
     with pytest.raises(OverrideError, match="cannot read file"):
         load_raw(tmp_path / "missing.yaml")

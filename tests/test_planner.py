@@ -10,8 +10,8 @@ import dataclasses
 
 import pytest
 
-from optimizer.inputs import Objective, OrderData, PlanInputs, SolveOptions
-from optimizer.results import (
+from optimizer.planning.inputs import Objective, OrderData, PlanInputs, SolveOptions
+from optimizer.planning.results import (
     CAUTION,
     ELASTIC_STOPPED,
     SolveStatus,
@@ -23,7 +23,7 @@ from optimizer.results import (
     tunnel_table,
     utilisation_table,
 )
-from optimizer.solve import plan
+from optimizer.planning.solve import plan
 from tests._planner_cases import dwell_row, one_line
 
 SOLVERS = ["highs", "cbc"]
@@ -295,9 +295,9 @@ def _constraint_violation(model) -> float:
 
 def _solved_single_product_loads(inp: PlanInputs, opts: SolveOptions):
     """The compact model of ``inp`` with single-product loads, solved to optimality."""
-    from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
+    from optimizer.planning import solve as S
+    from optimizer.planning.loads import candidates
+    from optimizer.planning.model import build_model
 
     model = build_model(inp, candidates(inp, opts.mix_tolerance, 1))
     status, *_ = S._run(model.prob, "highs", opts)
@@ -309,7 +309,7 @@ def _solved_single_product_loads(inp: PlanInputs, opts: SolveOptions):
 def test_shift_window_improvement_reaches_a_better_feasible_plan(n_shifts):
     # A poor plan (no batches at all in the first shift) is improved two shifts at a
     # time; with two shifts the one window is the whole plan, so it reaches the optimum.
-    from optimizer import solve as S
+    from optimizer.planning import solve as S
 
     prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(4)}
     inp = one_line(products=prods, n_shifts=n_shifts, oven_changeover=15.0, tunnel_changeover=10.0)
@@ -338,7 +338,7 @@ def test_relax_and_fix_gives_a_feasible_integer_plan_and_restores_the_model(obje
     # last shift: the shift-by-shift plan must be a plan of the whole MILP (every
     # row met, every integer whole) no better than its optimum, and the model must
     # come back with its bounds and integrality untouched.
-    from optimizer import solve as S
+    from optimizer.planning import solve as S
 
     prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(4)}
     orders = [
@@ -375,9 +375,9 @@ def test_relax_and_fix_gives_a_feasible_integer_plan_and_restores_the_model(obje
 def test_relax_and_fix_without_a_plan_returns_none_and_restores_the_model():
     # The order minimum is more than the line can cook in the two shifts: no step
     # has a plan.
-    from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
+    from optimizer.planning import solve as S
+    from optimizer.planning.loads import candidates
+    from optimizer.planning.model import build_model
 
     inp = one_line(n_shifts=2, orders=[OrderData("A", min_kg=50_000.0)], tunnel_changeover=5.0)
     opts = SolveOptions()
@@ -393,7 +393,7 @@ def test_idle_batches_settings_and_runs_are_dropped_from_a_plan():
     # setting switched on and a tunnel run with no kg (what a start held in place
     # can leave within the gap): the tidy step removes exactly those and the plan
     # stays feasible.
-    from optimizer import solve as S
+    from optimizer.planning import solve as S
 
     prods = {"A": (10.0, 50.0, 1.0, {}), "B": (8.0, 45.0, 0.8, {})}
     orders = [OrderData("A", max_kg=300.0), OrderData("B", max_kg=200.0)]
@@ -427,9 +427,9 @@ def test_a_full_milp_stopped_before_its_root_lp_reports_the_lp_bound(monkeypatch
     # The full MILP is made to report a useless bound (as HiGHS does when its time
     # runs out before the root LP is solved); the plan's bound and gap must then come
     # from the LP relaxation solved before it, which bounds the MILP too.
-    from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
+    from optimizer.planning import solve as S
+    from optimizer.planning.loads import candidates
+    from optimizer.planning.model import build_model
 
     prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(3)}
     inp = one_line(products=prods, n_shifts=2, oven_changeover=15.0, tunnel_changeover=10.0)
@@ -459,9 +459,9 @@ def test_changes_between_solves_reach_highs():
     # The HiGHS path keeps the matrix between solves of the same model: a column
     # added afterwards (a generated mixed load) and bounds changed afterwards must
     # still reach the solver. Each solve is compared with a model built afresh.
-    from optimizer import solve as S
-    from optimizer.loads import candidates
-    from optimizer.model import build_model
+    from optimizer.planning import solve as S
+    from optimizer.planning.loads import candidates
+    from optimizer.planning.model import build_model
 
     prods = {
         f"P{i}": (8.0 + i, 40.0 + 2 * i, 0.6 + 0.1 * i, {"value_per_kg": 1.0 + 0.2 * i})

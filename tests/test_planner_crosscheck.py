@@ -2,7 +2,7 @@
 
 * Brute force: every integer combination of batches on small random plants,
   each scored with its own LP (scipy.optimize.linprog) written here from the
-  documented rules, not from optimizer.model.
+  documented rules, not from optimizer.planning.model.
 * A second solver path: the model's matrices solved with
   scipy.optimize.milp (HiGHS inside scipy, a separate build).
 * HiGHS (in-process) against CBC on the same plans, every objective.
@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 from scipy.optimize import Bounds, LinearConstraint, linprog, milp
 
-from optimizer.inputs import (
+from optimizer.planning.inputs import (
     LoadingOption,
     Objective,
     OrderData,
@@ -33,10 +33,10 @@ from optimizer.inputs import (
     SolveOptions,
     TunnelData,
 )
-from optimizer.loads import candidates
-from optimizer.model import build_model, to_matrices
-from optimizer.results import SolveStatus
-from optimizer.solve import plan
+from optimizer.planning.loads import candidates
+from optimizer.planning.model import build_model, to_matrices
+from optimizer.planning.results import SolveStatus
+from optimizer.planning.solve import plan
 from tests._planner_cases import dwell_row, table
 
 GAP = 1e-5

@@ -18,6 +18,7 @@ from thermal.process import (
     OvenStage,
     TransferStage,
     TunnelZone,
+    check_stages,
     cook_and_chill,
     required_chill,
     required_cook,
@@ -294,3 +295,28 @@ def test_oven_transfer_three_zone_tunnel_in_a_few_lines():
     assert line.binding == (line.cook.binding, line.chill.binding)
     assert line.cook.binding in ("hold", "lethality") and line.chill.binding == "exit_core_max"
     assert not math.isnan(line.chill.verdict.margin)
+
+
+# ----------------------------------------------------------------- input checks without solving
+
+
+def test_check_stages_refuses_what_the_solvers_refuse():
+    # A loading factor above 1.5 is refused only where h is computed, and a
+    # piece 1e308 m long only where the Reynolds number is formed: the
+    # check finds both without solving, with the solvers' own messages.
+    too_loaded = [TunnelZone(AirSetting(temperature=-5.0, speed=4.0), 1.0, 2.0)]
+    with pytest.raises(ThermalInputError, match=r"loading_factor: must be in \(0, 1\.5\]") as a:
+        check_stages(PATTY, 70.0, zones=too_loaded)
+    with pytest.raises(ThermalInputError) as b:
+        required_chill(PATTY, 70.0, None, too_loaded, FDA_COOLING)
+    assert str(a.value) == str(b.value)
+    huge = Product("sheet", Slab(0.03, 1e308, 0.12), MEAT, emissivity=0.0)
+    with pytest.raises(ThermalInputError, match="reynolds: must be finite"):
+        check_stages(huge, 4.0, oven=OVEN)
+    with pytest.raises(ThermalInputError, match="reynolds: must be finite"):
+        required_cook(huge, OVEN, CookRule(72.0), 4.0)
+    warmer = [TunnelZone(ROOM, 0.5), TunnelZone(AirSetting(temperature=30.0, speed=1.0), 0.5)]
+    with pytest.raises(ThermalInputError, match=r"zones\[1\]\.air\.temperature"):
+        check_stages(PATTY, 70.0, zones=warmer)
+    # accepted stages pass silently
+    check_stages(PATTY, 4.0, oven=OVEN, transfer=TransferStage(ROOM, 60.0), zones=three_zones())

@@ -19,8 +19,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from optimizer import export
-from optimizer.report import (
+from optimizer.reporting import export
+from optimizer.reporting.html import (
     CurveSet,
     HtmlReport,
     RuleMark,
@@ -312,7 +312,7 @@ def test_json_is_strict(tmp_path: Path):
 
 @pytest.fixture(scope="module")
 def small_plan():
-    from optimizer.solve import plan
+    from optimizer.planning.solve import plan
     from tests._planner_cases import one_line
 
     inputs = one_line(
@@ -328,7 +328,7 @@ def small_plan():
 
 
 def test_timeline_accounts_for_every_batch_and_run(small_plan):
-    from optimizer.report import shift_timelines
+    from optimizer.reporting.html import shift_timelines
 
     inputs, result = small_plan
     timelines = shift_timelines(result, inputs)
@@ -355,8 +355,8 @@ def test_timeline_accounts_for_every_batch_and_run(small_plan):
 
 
 def test_plan_report_tables_equal_plan_tables(small_plan):
-    from optimizer.report import RunInfo, plan_report
-    from optimizer.results import plan_tables
+    from optimizer.planning.results import plan_tables
+    from optimizer.reporting.html import RunInfo, plan_report
 
     inputs, result = small_plan
     tables = plan_tables(result)

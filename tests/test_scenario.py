@@ -12,7 +12,7 @@ import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from optimizer.scenario import (
+from optimizer.scenario.models import (
     ChillRuleSpec,
     CookRuleSpec,
     FreezeRuleSpec,
@@ -24,7 +24,7 @@ from optimizer.scenario import (
     scenario_json_schema,
     scenario_to_dict,
 )
-from optimizer.units import KINDS, UnitParseError, parse_quantity
+from optimizer.scenario.units import KINDS, UnitParseError, parse_quantity
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 SCENARIOS = [CONFIGS / "demo.yaml", CONFIGS / "large.yaml"]
@@ -265,14 +265,14 @@ def test_json_schema_describes_every_section_and_units():
 
 
 def _dwell_stub(scenario) -> pd.DataFrame:
-    from optimizer.inputs import DWELL_COLUMNS
+    from optimizer.planning.inputs import DWELL_COLUMNS
 
     return pd.DataFrame(columns=list(DWELL_COLUMNS))
 
 
 def test_plan_inputs_maps_the_scenario_to_planner_data():
-    from optimizer.adapter import plan_inputs
-    from optimizer.inputs import Objective
+    from optimizer.planning.adapter import plan_inputs
+    from optimizer.planning.inputs import Objective
 
     s = load_scenario(CONFIGS / "demo.yaml")
     inputs = plan_inputs(s, _dwell_stub(s))
@@ -294,7 +294,7 @@ def test_plan_inputs_maps_the_scenario_to_planner_data():
 
 
 def test_plan_inputs_without_orders_plans_every_product():
-    from optimizer.adapter import plan_inputs
+    from optimizer.planning.adapter import plan_inputs
 
     raw = yaml.safe_load((CONFIGS / "demo.yaml").read_text(encoding="utf-8"))
     raw.pop("orders")

@@ -20,8 +20,10 @@ from typing import Any
 import pytest
 import yaml
 
-from optimizer.cli import main
-from optimizer.scenario import ScenarioError, load_scenario, scenario_from_dict
+from optimizer.cli.app import main
+from optimizer.dwell.checks import checked_scenario_from_dict as scenario_from_dict
+from optimizer.dwell.checks import load_checked_scenario as load_scenario
+from optimizer.scenario.models import ScenarioError
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 DEMO = yaml.safe_load((CONFIGS / "demo.yaml").read_text(encoding="utf-8"))

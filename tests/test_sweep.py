@@ -13,16 +13,17 @@ from __future__ import annotations
 import itertools
 import json
 import math
+import re
 from pathlib import Path
 
 import pandas as pd
 import pytest
 import yaml
 
-from optimizer import sweep
-from optimizer.overrides import Change, OverrideError, apply_changes, load_raw
-from optimizer.sweep import StudyError, load_study, results_table, run_study
-from optimizer.sweep_exec import grid_points
+from optimizer.scenario.overrides import Change, OverrideError, apply_changes, load_raw
+from optimizer.studies import study as sweep
+from optimizer.studies.execute import grid_points
+from optimizer.studies.study import StudyError, load_study, results_table, run_study
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "configs" / "demo.yaml"
@@ -152,8 +153,8 @@ def length_sweep(plant, cache):
 def test_tunnel_length_throughput_rises_while_the_tunnel_limits_then_stays_flat(
     length_sweep, plant, cache
 ):
-    from optimizer.dwell import build_dwell_table
-    from optimizer.scenario import load_scenario
+    from optimizer.dwell.table import build_dwell_table
+    from optimizer.scenario.models import load_scenario
 
     table = length_sweep.table
     assert list(table["status"]) == ["optimal"] * len(LENGTHS)
@@ -642,7 +643,7 @@ def test_bad_yaml_and_missing_study_file(plant, tmp_path, capsys):
     bad = plant / "broken.yaml"
     bad.write_text("base: [unclosed\n")
     assert sweep.main([str(bad), "--out", str(tmp_path / "o")]) == 2
-    assert "not valid YAML at line" in capsys.readouterr().err
+    assert re.search(r"line \d+: not valid YAML", capsys.readouterr().err)
     assert sweep.main([str(plant / "nope.yaml"), "--out", str(tmp_path / "o")]) == 2
     assert "no such study file" in capsys.readouterr().err
     with pytest.raises(StudyError, match="must hold a mapping"):
@@ -658,7 +659,7 @@ def test_bad_yaml_and_missing_study_file(plant, tmp_path, capsys):
 
 def sweep_command(capsys, study: Path, out: Path, cache: Path, *options: str):
     """``corepace sweep`` through the command's entry point: (code, stdout, stderr, table)."""
-    from optimizer import cli
+    from optimizer.cli import app as cli
 
     argv = ["sweep", str(study), "--out", str(out), "--cache-dir", str(cache), *options]
     code = cli.main(argv)
@@ -670,7 +671,7 @@ def sweep_command(capsys, study: Path, out: Path, cache: Path, *options: str):
 @pytest.fixture(scope="module")
 def serial_command_table(small_grid, cache, tmp_path_factory):
     """The small grid's sweep.csv from ``corepace sweep --serial``, read back."""
-    from optimizer import cli
+    from optimizer.cli import app as cli
 
     out = tmp_path_factory.mktemp("serial-command")
     argv = ["sweep", str(small_grid.path), "--out", str(out), "--cache-dir", str(cache)]

@@ -6,7 +6,7 @@ import json
 
 import pytest
 
-from optimizer.sweep_exec import grid_points, run_points
+from optimizer.studies.execute import grid_points, run_points
 from tests.sweep_points import square_point
 
 

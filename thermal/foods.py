@@ -2,11 +2,16 @@
 
 Density, specific heat and thermal conductivity follow the Choi & Okos (1986)
 component equations with the mixture rules printed in the ASHRAE Handbook —
-Refrigeration, chapter "Thermal Properties of Foods". Below the initial
-freezing point part of the water is ice: the ice fraction follows the
-Schwartzberg (1976) form with bound water, ice is then treated as one more
-component, and the latent heat of the ice formed is carried in the enthalpy
-and in the apparent specific heat.
+Refrigeration, chapter "Thermal Properties of Foods", except the specific heat
+of liquid water from 0 °C up, which follows Popiel & Wojtkowiak (1998) and
+tracks IAPWS-95 within 0.15 % from 0 to 150 °C: the printed Choi–Okos
+quadratics for water run up to 2.2 % (constant 4.1289) or 1.0 % (constant
+4.1762) below IAPWS-95 near 0 °C, and a low water cp makes every cook and
+chill time short. Below 0 °C the unfrozen water takes the separate sub-zero
+Choi–Okos equation. Below the initial freezing point part of the water is ice:
+the ice fraction follows the Schwartzberg (1976) form with bound water, ice is
+then treated as one more component, and the latent heat of the ice formed is
+carried in the enthalpy and in the apparent specific heat.
 
 Temperatures are in °C throughout (the physics uses differences); every other
 quantity is SI: kg/m3, J/(kg K), W/(m K), m2/s, J/kg.
@@ -20,7 +25,8 @@ Two property sets implement the same protocol, :class:`ThermalProperties`:
 Both are vectorised over temperature and precompute what they can at
 construction, so that a numerical enthalpy solver can call them on thousands
 of cells per step: enthalpy and apparent specific heat are closed-form
-polynomials (plus a logarithm below freezing), and the inverse
+polynomials in t (half-integer powers in the water term above 0 °C, a
+logarithm below freezing), and the inverse
 ``temperature_from_enthalpy`` interpolates a fine monotone table built once
 per instance.
 
@@ -50,6 +56,10 @@ References
    Eucken, A. (1940). Allgemeine Gesetzmäßigkeiten für das Wärmeleitvermögen
    verschiedener Stoffarten und Aggregatzustände. *Forschung auf dem Gebiete
    des Ingenieurwesens* 11, 6-20 (Maxwell–Eucken model, as given in [2]).
+.. [6] Popiel, C. O. and Wojtkowiak, J. (1998). Simple formulas for
+   thermophysical properties of liquid water for heat transfer calculations
+   (from 0 °C to 150 °C). *Heat Transfer Engineering* 19(3), 87-101
+   (specific heat of saturated liquid water, fitted to IAPWS data).
 """
 
 from __future__ import annotations
@@ -90,8 +100,6 @@ COMPONENTS: tuple[str, ...] = ("water", "ice", "protein", "fat", "carbohydrate",
 
 # Choi & Okos (1986) as printed in the ASHRAE Handbook — Refrigeration, "Thermal
 # Properties of Foods", Table 1: property = c0 + c1 t + c2 t**2, t in °C.
-# The water specific heat is the variant 4.1289 - 9.0864e-5 t + 5.4731e-6 t**2
-# (ASHRAE printings differ; this is the one CoolProp's INCOMP::FoodWater uses).
 _DENSITY = np.array(  # [kg/m3]
     [
         [997.18, 3.1439e-3, -3.7574e-3],  # water
@@ -103,9 +111,12 @@ _DENSITY = np.array(  # [kg/m3]
         [2423.8, -0.28063, 0.0],  # ash
     ]
 )
+# Specific heat below 0 °C: every row Choi & Okos (1986) as in Table 1; the
+# water row is their separate sub-zero equation for -40 to 0 °C (coefficients
+# from memory of Choi & Okos), the unfrozen water of a frozen food.
 _SPECIFIC_HEAT = 1e3 * np.array(  # [J/(kg K)] (printed in kJ/(kg K))
     [
-        [4.1289, -9.0864e-5, 5.4731e-6],  # water
+        [4.0817, -5.3062e-3, 9.9516e-4],  # water, -40 to 0 °C
         [2.0623, 6.0769e-3, 0.0],  # ice
         [2.0082, 1.2089e-3, -1.3129e-6],  # protein
         [1.9842, 1.4733e-3, -4.8008e-6],  # fat
@@ -113,6 +124,15 @@ _SPECIFIC_HEAT = 1e3 * np.array(  # [J/(kg K)] (printed in kJ/(kg K))
         [1.8459, 1.8306e-3, -4.6509e-6],  # fiber
         [1.0926, 1.8896e-3, -3.6817e-6],  # ash
     ]
+)
+# Specific heat from 0 °C: c0 + c1 t + c15 t**1.5 + c2 t**2 + c25 t**2.5. The
+# water row is Popiel & Wojtkowiak (1998), saturated liquid water 0-150 °C
+# (coefficients from memory; tests check it against IAPWS-95 within 0.5 %);
+# the other rows are the Choi–Okos quadratics above.
+_SPECIFIC_HEAT_ABOVE_ZERO = np.zeros((len(_SPECIFIC_HEAT), 5))
+_SPECIFIC_HEAT_ABOVE_ZERO[:, [0, 1, 3]] = _SPECIFIC_HEAT
+_SPECIFIC_HEAT_ABOVE_ZERO[0] = 1e3 * np.array(
+    [4.2174356, -5.6181625e-3, 1.2992528e-3, -1.1535353e-4, 4.14964e-6]
 )
 _CONDUCTIVITY = np.array(  # [W/(m K)]
     [
@@ -139,8 +159,34 @@ def _poly(coefficients: FloatArray, t: FloatArray) -> FloatArray:
     return c[:, 0] + t * (c[:, 1] + t * c[:, 2])
 
 
+def _above_zero(c: FloatArray, t: FloatArray) -> FloatArray:
+    """c0 + c1 t + c15 t^1.5 + c2 t² + c25 t^2.5 for t >= 0; ``c`` has the five on axis 0."""
+    r = np.sqrt(t)
+    return c[0] + t * (c[1] + r * c[2] + t * (c[3] + r * c[4]))
+
+
+def _above_zero_integral(c: FloatArray, t: FloatArray) -> FloatArray:
+    """∫_0^t of :func:`_above_zero` for t >= 0."""
+    r = np.sqrt(t)
+    return t * (c[0] + t * (c[1] / 2.0 + r * c[2] / 2.5 + t * (c[3] / 3.0 + r * c[4] / 3.5)))
+
+
+def _specific_heats(t: FloatArray) -> FloatArray:
+    """Component specific heats [J/(kg K)] at ``t`` [°C] -> shape (7, *t.shape)."""
+    below = _poly(_SPECIFIC_HEAT, t)
+    c = _SPECIFIC_HEAT_ABOVE_ZERO.T.reshape(5, len(COMPONENTS), *([1] * t.ndim))
+    above = _above_zero(c, np.maximum(t, 0.0))
+    return np.where(t < 0.0, below, above)
+
+
+def _component_values(prop: str, rows: slice, t: FloatArray) -> FloatArray:
+    if prop == "specific_heat":
+        return _specific_heats(t)[rows]
+    return _poly(_COEFFICIENTS[prop][rows], t)
+
+
 def component_property(component: str, prop: str, temperature: ArrayLike) -> FloatArray:
-    """Choi–Okos property of one pure food component.
+    """Property of one pure food component (Choi–Okos; water cp as noted).
 
     Parameters
     ----------
@@ -159,10 +205,19 @@ def component_property(component: str, prop: str, temperature: ArrayLike) -> Flo
     ndarray
         The property, same shape as ``temperature``.
 
+    Notes
+    -----
+    The specific heat of water is the sub-zero Choi–Okos equation below 0 °C
+    and the Popiel & Wojtkowiak (1998) liquid-water form from 0 °C (within
+    0.15 % of IAPWS-95 from 0 to 150 °C). The two published forms do not meet:
+    at 0 °C the sub-zero one gives 4081.7 J/(kg K), 3.2 % below the liquid
+    value, so the water cp steps at 0 °C (the enthalpy stays continuous).
+
     References
     ----------
     .. [1] Choi & Okos (1986), as printed in the ASHRAE Handbook —
        Refrigeration, "Thermal Properties of Foods", Table 1.
+    .. [2] Popiel & Wojtkowiak (1998), Heat Transfer Eng. 19(3), 87-101.
     """
     if component not in COMPONENTS:
         raise ThermalInputError(
@@ -172,7 +227,7 @@ def component_property(component: str, prop: str, temperature: ArrayLike) -> Flo
         raise ThermalInputError(f"prop: must be one of {', '.join(_COEFFICIENTS)}, got {prop!r}")
     t = temperature_c("temperature", temperature)
     row = COMPONENTS.index(component)
-    return _poly(_COEFFICIENTS[prop][row : row + 1], t)[0]
+    return _component_values(prop, slice(row, row + 1), t)[0]
 
 
 # --------------------------------------------------------------------------- composition
@@ -413,15 +468,18 @@ def _antiderivative(c: FloatArray, t: FloatArray) -> FloatArray:
 class _Enthalpy:
     """Apparent specific heat, enthalpy and ice fraction of one material.
 
-    Sensible specific heat ``c_s(t) = a(t) + x_ice(t) d(t)`` with polynomials
-    ``a`` (all water liquid) and ``d`` (ice minus water, per kg of ice), ice
-    fraction ``x_ice = A (1 - t_f/t)`` below ``t_f`` (Schwartzberg form), and
-    ``H(t) = ∫_{-40}^{t} c_s dτ - L0 (x_ice(t) - x_ice(-40))``. Outside
-    [-40, 150] °C the properties are frozen at the end values and H continues
-    linearly, so dH/dt equals the apparent specific heat everywhere.
+    Sensible specific heat ``c_s(t) = a(t) + x_ice(t) d(t)``: ``a`` (all water
+    liquid) is the quadratic ``a_below`` below 0 °C and the five-term form
+    ``a_above`` (powers 0, 1, 1.5, 2, 2.5) from 0 °C; ``d`` (ice minus
+    water, per kg of ice) is quadratic. Ice fraction ``x_ice = A (1 - t_f/t)``
+    below ``t_f`` < 0 (Schwartzberg form), and ``H(t) = ∫_{-40}^{t} c_s dτ -
+    L0 (x_ice(t) - x_ice(-40))``. Outside [-40, 150] °C the properties are
+    frozen at the end values and H continues linearly, so dH/dt equals the
+    apparent specific heat everywhere.
     """
 
-    a: FloatArray  # (3,) [J/(kg K)]
+    a_below: FloatArray  # (3,) [J/(kg K)]
+    a_above: FloatArray  # (5,) [J/(kg K)]
     d: FloatArray  # (3,) [J/(kg K)]
     freezable: float  # A: ice fraction approached far below t_f [kg/kg]
     t_f: float  # initial freezing point [°C] (-inf: no freezing in range)
@@ -441,7 +499,7 @@ class _Enthalpy:
         object.__setattr__(self, "h_high", float(self._h_inside(np.array(T_HIGH))))
         if freezes:
             # geometric spacing of |t| below t_f (relative step 0.2 %) where the
-            # latent release is steep, 0.05 K steps above.
+            # latent release is steep, 0.05 K steps above (nodes at t_f and 0 °C).
             n_low = int(np.ceil(np.log(T_LOW / self.t_f) / np.log1p(2e-3))) + 1
             below = self.t_f * np.geomspace(1.0, T_LOW / self.t_f, n_low)[::-1]
             n_high = int(np.ceil((T_HIGH - self.t_f) / 0.05)) + 1
@@ -449,6 +507,8 @@ class _Enthalpy:
             grid = np.concatenate([below, above])
         else:
             grid = np.linspace(T_LOW, T_HIGH, int((T_HIGH - T_LOW) / 0.05) + 1)
+        # a node at 0 °C, where the water cp changes equation (a kink in H)
+        grid = np.union1d(grid[np.abs(grid) > 1e-9], [0.0])
         object.__setattr__(self, "table_t", grid)
         object.__setattr__(self, "table_h", self._h_inside(grid))
 
@@ -461,8 +521,10 @@ class _Enthalpy:
         return np.where(below, self.freezable * (1.0 - self.t_f / safe), 0.0)
 
     def _cp_inside(self, t: FloatArray) -> FloatArray:
-        a, d = self.a, self.d
-        cp = a[0] + t * (a[1] + t * a[2])
+        a, d = self.a_below, self.d
+        cp = np.where(
+            t < 0.0, a[0] + t * (a[1] + t * a[2]), _above_zero(self.a_above, np.maximum(t, 0.0))
+        )
         if self.freezable == 0.0:
             return cp
         below = t < self.t_f
@@ -474,7 +536,12 @@ class _Enthalpy:
 
     def _h_inside(self, t: FloatArray) -> FloatArray:
         low = np.array(T_LOW)
-        h = _antiderivative(self.a, t) - _antiderivative(self.a, low)
+        sensible = np.where(
+            t < 0.0,
+            _antiderivative(self.a_below, t),
+            _above_zero_integral(self.a_above, np.maximum(t, 0.0)),
+        )
+        h = sensible - _antiderivative(self.a_below, low)
         if self.freezable == 0.0:
             return h
         d, t_f, big_a = self.d, self.t_f, self.freezable
@@ -574,7 +641,9 @@ class FoodProperties:
     - Above the freezing point all water is liquid. Below it the ice fraction
       is ``x_ice = (x_w - x_b)(1 - t_f/t)`` (Schwartzberg form, t in °C), the
       unfrozen water is ``x_w - x_ice`` and ice is a component with its own
-      Choi–Okos density, specific heat and conductivity.
+      Choi–Okos density, specific heat and conductivity. Water cp is the
+      sub-zero Choi–Okos equation below 0 °C and Popiel & Wojtkowiak (1998)
+      from 0 °C (see :func:`component_property`).
     - Density ``1/Σ(x_i/ρ_i)``, specific heat ``Σ x_i c_i`` (mass fractions),
       conductivity by the chosen model with volume fractions
       ``v_i = (x_i/ρ_i) ρ``. No porosity (solid foods).
@@ -595,6 +664,7 @@ class FoodProperties:
        Properties of Foods" (see module references).
     .. [2] Schwartzberg (1976), J. Food Sci. 41, 152-156.
     .. [3] Pham (1996), J. Food Eng. 30, 95-107.
+    .. [4] Popiel & Wojtkowiak (1998), Heat Transfer Eng. 19(3), 87-101.
     """
 
     def __init__(
@@ -639,11 +709,10 @@ class FoodProperties:
         else:
             t_f = float(in_range("freezing_point", freezing_point, -100.0, -MIN_DEPRESSION))
         self._freezing_point = t_f
-        a = x @ _SPECIFIC_HEAT
-        d = _SPECIFIC_HEAT[_ICE] - _SPECIFIC_HEAT[_WATER]
         self._model = _Enthalpy(
-            a=a,
-            d=d,
+            a_below=x @ _SPECIFIC_HEAT,
+            a_above=x @ _SPECIFIC_HEAT_ABOVE_ZERO,
+            d=_SPECIFIC_HEAT[_ICE] - _SPECIFIC_HEAT[_WATER],
             freezable=freezable if t_f is not None else 0.0,
             t_f=t_f if t_f is not None else float("-inf"),
         )
@@ -712,7 +781,7 @@ class FoodProperties:
     def sensible_specific_heat(self, temperature: ArrayLike) -> FloatArray:
         """Specific heat ``Σ x_i c_i`` without the latent part [J/(kg K)]."""
         t = np.clip(_temperature(temperature), T_LOW, T_HIGH)
-        return np.sum(self._fractions(t) * _poly(_SPECIFIC_HEAT, t), axis=0)
+        return np.sum(self._fractions(t) * _specific_heats(t), axis=0)
 
     def conductivity(self, temperature: ArrayLike) -> FloatArray:
         """Thermal conductivity by the chosen mixture model [W/(m K)].
@@ -792,7 +861,8 @@ class ConstantProperties:
                 in_range("freezing_point", freezing_point, -100.0, -MIN_DEPRESSION)
             )
         self._model = _Enthalpy(
-            a=np.array([self._cp, 0.0, 0.0]),
+            a_below=np.array([self._cp, 0.0, 0.0]),
+            a_above=np.array([self._cp, 0.0, 0.0, 0.0, 0.0]),
             d=np.zeros(3),
             freezable=self._latent_heat / LATENT_HEAT_ICE,
             t_f=self._freezing_point if self._freezing_point is not None else float("-inf"),

@@ -14,8 +14,10 @@ Public API (stable; other modules call it)
     Tunnel zones passed at a belt speed, as a list of segments.
 ``simulate(geometry, properties, initial, segments, *, n_cells=None, dt=None,
 profile_times=None, density_temperature=None, tolerance=1e-6,
-max_iterations=50, table_step=0.1) -> SimulationResult``
-    Run the batch.
+max_iterations=50, table_step=0.1, scheme="extrapolated", step_tolerance=None,
+n_steps=None) -> SimulationResult``
+    Run the batch; ``SimulationResult.take(members)`` is the result of some
+    members only.
 ``SimulationResult.final_state() -> Profile`` and ``resample(profile, n_cells)``
     Carry the end profile of one run (with its mass density) into the next,
     optionally on another grid.
@@ -37,11 +39,14 @@ each cell. Mass density is constant in time per member (the density of the
 properties at ``density_temperature``, by default the member's volume-mean
 initial temperature), so the volumetric enthalpy is ``rho * H`` and mass is
 conserved while freezing. Temperature-dependent ``H(T)``, ``k(T)`` are
-tabulated once per distinct property object on a common uniform temperature
-grid (``table_step``) covering every temperature the run can reach (the
-maximum principle bounds it by the initial, air and wall temperatures); the
-hot path interpolates these tables with computed indices, vectorised over the
-batch. ``T(H)`` is the exact inverse of the piecewise-linear ``H(T)`` table.
+tabulated once per distinct property object on the multiples of
+``table_step`` covering every temperature the run can reach (the maximum
+principle bounds it by the initial, air and wall temperatures); the nodes do
+not depend on the other members of a batch, so a member's result is the
+same alone or batched with others (to rounding) when the members share the
+step counts (``n_steps``). The hot path interpolates these tables with
+computed indices, vectorised over the batch. ``T(H)`` is the exact inverse
+of the piecewise-linear ``H(T)`` table.
 
 *Implicit step.* Backward Euler on the enthalpy balance (unconditionally
 stable). Each step solves the nonlinear implicit equations by the enthalpy
@@ -347,6 +352,30 @@ class SimulationResult:
         """The end profile and density, to start a following simulation."""
         return Profile(self.final.copy(), self.density.copy())
 
+    def take(self, members: slice) -> SimulationResult:
+        """The result of the batch members ``members`` only (a slice of the batch).
+
+        The time axis, segment ends and iteration count are the batch's.
+        """
+        grid = Grid(self.grid.kind, self.grid.axes, self.grid.lengths[members], self.grid.n_cells)
+        return SimulationResult(
+            times=self.times[members],
+            core=self.core[members],
+            surface=self.surface[members],
+            surface_min=self.surface_min[members],
+            surface_max=self.surface_max[members],
+            mean=self.mean[members],
+            final=self.final[members],
+            heat_in_segments=self.heat_in_segments[members],
+            heat_in=self.heat_in[members],
+            segment_end=self.segment_end,
+            grid=grid,
+            density=self.density[members],
+            profile_times=None if self.profile_times is None else self.profile_times[members],
+            profiles=None if self.profiles is None else self.profiles[members],
+            iterations=self.iterations,
+        )
+
 
 # ---------------------------------------------------------------------------
 # geometry helpers
@@ -424,12 +453,15 @@ class _Tables:
             else:
                 member[i] = len(unique)
                 unique.append(p)
-        n = int(np.ceil((t_high - t_low) / step)) + 1
-        n = max(n, 8)
-        self.t0 = t_low
-        self.dt = (t_high - t_low) / (n - 1)
+        # nodes on the fixed lattice of multiples of ``step``: a member's table
+        # values do not depend on the other members of its batch
+        k0 = int(np.floor(t_low / step))
+        n = max(int(np.ceil(t_high / step)) - k0 + 1, 8)
+        self.k0 = float(k0)
+        self.t0 = k0 * step
+        self.dt = float(step)
         self.n = n
-        tgrid = t_low + self.dt * np.arange(n)
+        tgrid = self.dt * (self.k0 + np.arange(n))
         h_tab = np.empty((len(unique), n))
         k_tab = np.empty((len(unique), n))
         rho_tab = np.empty((len(unique), n))
@@ -494,7 +526,7 @@ class _Tables:
         )
 
     def _index(self, t, ids):
-        x = (t - self.t0) * (1.0 / self.dt)
+        x = t * (1.0 / self.dt) - self.k0
         j = np.minimum(np.maximum(x, 0.0), self.n - 2).astype(np.intp)
         w = x - j
         return w, (j if ids is None else ids.base + j)
@@ -524,8 +556,8 @@ class _Tables:
             if not move.any():
                 break
             flat = flat + move
-        t0 = self.t0 + self.dt * (flat - base)
-        return t0 + (h - self.h_flat[flat]) / self.slope_flat[flat]
+        t_node = self.dt * (self.k0 + (flat - base))
+        return t_node + (h - self.h_flat[flat]) / self.slope_flat[flat]
 
 
 @dataclass(frozen=True)
@@ -550,14 +582,16 @@ def _surface_temperature(t_cell, g, h, t_air, rad, t_wall_k4, ts):
     """
     inf_h = np.isinf(h)
     hf = np.where(inf_h, 0.0, h)
+    linear = (g * t_cell + hf * t_air) / (g + hf)
     if not np.any(rad):
-        return np.where(inf_h, t_air, (g * t_cell + hf * t_air) / (g + hf))
+        return np.where(inf_h, t_air, linear)
     for _ in range(3):
         tk = ts + _KELVIN
         f = g * (ts - t_cell) - hf * (t_air - ts) - rad * (t_wall_k4 - tk**4)
         df = g + hf + 4.0 * rad * tk**3
         ts = ts - f / df
-    return np.where(inf_h, t_air, ts)
+    # members without radiation: the closed form, as in a batch without radiation
+    return np.where(inf_h, t_air, np.where(rad == 0, linear, ts))
 
 
 # ---------------------------------------------------------------------------
@@ -674,7 +708,7 @@ def _implicit_sweep(
         tables.k_flat,
         tables.slope_flat,
         tables.idx_flat,
-        float(tables.t0),
+        float(tables.k0),
         float(tables.dt),
         int(tables.n),
         int(tables.nq),
@@ -718,7 +752,7 @@ def _sweep_lines(
     k_tab,
     slope_tab,
     idx_tab,
-    t0,
+    k0,
     dt,
     n_tab,
     nq,
@@ -738,6 +772,7 @@ def _sweep_lines(
     the most iterations any line took, or -1 when a line did not converge.
     """
     n_lines, n = h_now.shape
+    inv_dt = 1.0 / dt
     slope = np.empty(n)
     k = np.empty(n)
     g = np.empty(n - 1)
@@ -765,7 +800,7 @@ def _sweep_lines(
         while not done:
             # properties at the iterate
             for i in range(n):
-                x = (t[i] - t0) / dt
+                x = t[i] * inv_dt - k0
                 xc = min(max(x, 0.0), n_tab - 2.0)
                 j = int(xc)
                 w = x - j
@@ -842,7 +877,7 @@ def _sweep_lines(
                 last = b + n_tab - 2
                 while f < last and h[i] >= h_tab[f + 1]:
                     f += 1
-                t[i] = t0 + dt * (f - b) + (h[i] - h_tab[f]) / slope_tab[f]
+                t[i] = dt * (k0 + (f - b)) + (h[i] - h_tab[f]) / slope_tab[f]
             it += 1
             if linear:
                 # constant cp and k, no radiation: the linear solve is the exact step
@@ -978,6 +1013,7 @@ def simulate(
     table_step: float = 0.1,
     scheme: str = "extrapolated",
     step_tolerance: float | None = None,
+    n_steps: Sequence[int] | None = None,
 ) -> SimulationResult:
     """Simulate a batch of products through a schedule of surface conditions.
 
@@ -1032,6 +1068,11 @@ def simulate(
         grow or shrink to meet it; a step that misses it is repeated
         shorter. ``dt`` then sets the first step of each segment (cut into
         the graded start). Default None: fixed steps.
+    n_steps : sequence of int, optional
+        Steps per segment, one count >= 1 per segment, the same for every
+        member (instead of the count ``dt`` gives; ``dt`` is then not
+        used). Members that would run alone with the same counts get the
+        same result in one batch.
 
     Returns
     -------
@@ -1158,7 +1199,7 @@ def simulate(
     else:
         if density_temperature is None:
             dens_t = (t0 * vol).reshape(batch, -1).sum(axis=1) / vol_sum
-        x = (dens_t - tables.t0) / tables.dt
+        x = dens_t * (1.0 / tables.dt) - tables.k0
         j = np.clip(np.floor(x).astype(np.intp), 0, tables.n - 2)
         w = x - j
         rho = tables.rho[tid_b, j] * (1 - w) + tables.rho[tid_b, j + 1] * w
@@ -1175,10 +1216,17 @@ def simulate(
         if not (np.isfinite(dt) and dt > 0):
             raise ThermalInputError(f"dt: must be > 0 s, got {dt!r}")
         dt_max = float(dt)
-    steps = [
-        max(int(np.ceil(durations[:, i].max() / dt_max - 1e-9)), 50 if dt is None else 1)
-        for i in range(len(segs))
-    ]
+    if n_steps is None:
+        steps = [
+            max(int(np.ceil(durations[:, i].max() / dt_max - 1e-9)), 50 if dt is None else 1)
+            for i in range(len(segs))
+        ]
+    else:
+        steps = [int(c) for c in n_steps]
+        if len(steps) != len(segs) or min(steps) < 1:
+            raise ThermalInputError(
+                f"n_steps: needs one step count >= 1 per segment ({len(segs)}), got {n_steps!r}"
+            )
     # each segment starts with graded sub-steps (1/8, 1/8, 1/4, 1/2 of a step)
     # because the surface conditions jump there and the solution is least smooth
     fractions = [np.array(_START_FRACTIONS + [1.0] * (n - 1)) for n in steps]

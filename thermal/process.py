@@ -78,6 +78,7 @@ from numpy.typing import ArrayLike, NDArray
 from thermal import lethality, numeric, series
 from thermal._checks import nonnegative, positive, temperature_c
 from thermal.errors import ThermalInputError, UnreachableTargetError
+from thermal.jobs import Job, RunRequest, run_job
 from thermal.rules import (
     TOLERANCE_K,
     ChillRule,
@@ -99,11 +100,15 @@ __all__ = [
     "StageSpan",
     "TransferStage",
     "TunnelZone",
+    "check_stages",
     "cook_and_chill",
     "required_chill",
+    "required_chill_job",
     "required_cook",
+    "required_cook_job",
     "required_freeze",
     "run_stages",
+    "run_stages_job",
 ]
 
 DEFAULT_CELLS = {1: 24, 2: 14, 3: 10}
@@ -575,11 +580,11 @@ def _dt(segments: Sequence[numeric.Segment], total: float, steps: int) -> float:
     return max(min(total / steps, shortest / 3.0), 1e-3)
 
 
-def _run(product, initial, segments, cells, *, batch: int, steps: int, total: float):
-    geo = product.geometry if batch == 1 else [product.geometry] * batch
-    return numeric.simulate(
-        geo, product.properties, initial, segments, n_cells=cells, dt=_dt(segments, total, steps)
-    )
+def _run(product, initial, segments, cells, *, batch: int, steps: int, total: float) -> RunRequest:
+    """The simulation of ``batch`` members with the largest step :func:`_dt` (a request)."""
+    dt = _dt(segments, total, steps)
+    n_steps = tuple(max(int(np.ceil(float(np.max(s.duration)) / dt - 1e-9)), 1) for s in segments)
+    return RunRequest(product, initial, tuple(segments), tuple(cells), n_steps, int(batch))
 
 
 def _member_history(res, k: int, names: Sequence[str], surfaces: Sequence[_Surface]) -> History:
@@ -782,7 +787,7 @@ def _cook_series(product, stage, rule, t0, surf, cells, margin) -> CookResult:
     )
 
 
-def required_cook(
+def required_cook_job(
     product: Any,
     air: Any,
     rule: CookRule,
@@ -794,8 +799,13 @@ def required_cook(
     max_dwell: float = 24 * 3600.0,
     n_cells: int | Sequence[int] | None = None,
     steps: int = DEFAULT_STEPS,
-) -> CookResult:
-    """Shortest oven dwell at which the core meets every clause of ``rule``.
+) -> Job:
+    """Shortest oven dwell at which the core meets every clause of ``rule``, as a job.
+
+    The search of :func:`required_cook` as a :data:`thermal.jobs.Job` (it
+    yields its simulations; :func:`thermal.jobs.run_jobs` runs many searches
+    with their simulations batched); the job's value is the
+    :class:`CookResult`.
 
     Parameters
     ----------
@@ -827,7 +837,9 @@ def required_cook(
 
     Returns
     -------
-    CookResult
+    Job
+        A generator of :class:`thermal.jobs.RunRequest` whose value is the
+        :class:`CookResult`.
 
     Raises
     ------
@@ -873,7 +885,7 @@ def required_cook(
     horizon = _cook_horizon(product, stage, rule, t_start, fastest_lethality, max_dwell)
     while True:
         segs = _oven_segments(pieces, horizon)
-        res = _run(product, initial, segs, cells, batch=1, steps=steps, total=horizon)
+        res = yield _run(product, initial, segs, cells, batch=1, steps=steps, total=horizon)
         t, core = res.times[0], res.core[0]
         found = _earliest_cook(rule, t, core)
         if found is not None or horizon >= max_dwell:
@@ -904,7 +916,7 @@ def required_cook(
     for bump in _FINAL_BUMPS:
         dwell = dwell0 * (1.0 + bump)
         segs = _oven_segments(pieces, dwell)
-        res = _run(product, initial, segs, cells, batch=1, steps=steps, total=dwell)
+        res = yield _run(product, initial, segs, cells, batch=1, steps=steps, total=dwell)
         names = [f"oven {i + 1}" for i in range(len(segs))]
         surfaces = [p[1] for p in pieces[: len(segs)]]  # segment i comes from piece i
         hist = _member_history(res, 0, names, surfaces)
@@ -982,6 +994,13 @@ def _check_zones(zones: Sequence[TunnelZone]) -> tuple[TunnelZone, ...]:
     return zones
 
 
+def _stage_surface(product: Any, stage: TransferStage | TunnelZone, t_start: float) -> _Surface:
+    """Surface of a transfer or tunnel zone for a product entering at ``t_start`` [°C]."""
+    return _surface(
+        product, stage.air, stage.loading_factor, 0.5 * (t_start + float(stage.air.temperature))
+    )
+
+
 def _zone_segments(zsurfs, zones, tau):
     """Zone segments for residences ``tau`` (one per batch member) [s]."""
     segs = []
@@ -992,7 +1011,7 @@ def _zone_segments(zsurfs, zones, tau):
     return segs
 
 
-def required_chill(
+def required_chill_job(
     product: Any,
     initial: CookResult | numeric.Profile | ArrayLike,
     transfer: TransferStage | None,
@@ -1005,8 +1024,11 @@ def required_chill(
     n_cells: int | Sequence[int] | None = None,
     steps: int = DEFAULT_STEPS,
     tolerance: float = 5e-3,
-) -> ChillResult:
-    """Shortest tunnel residence meeting a chill (or freeze) rule.
+) -> Job:
+    """Shortest tunnel residence meeting a chill (or freeze) rule, as a job.
+
+    The search of :func:`required_chill` as a :data:`thermal.jobs.Job`; its
+    value is the :class:`ChillResult`.
 
     Parameters
     ----------
@@ -1040,7 +1062,9 @@ def required_chill(
 
     Returns
     -------
-    ChillResult
+    Job
+        A generator of :class:`thermal.jobs.RunRequest` whose value is the
+        :class:`ChillResult`.
 
     Raises
     ------
@@ -1086,24 +1110,12 @@ def required_chill(
             f"tunnel air at {coldest:.1f} °C cannot bring the core to {target:.1f} °C",
         )
 
-    tsurf = (
-        _surface(
-            product,
-            transfer.air,
-            transfer.loading_factor,
-            0.5 * (t_start + float(transfer.air.temperature)),
-        )
-        if transfer is not None
-        else None
-    )
-    zsurfs = [
-        _surface(product, z.air, z.loading_factor, 0.5 * (t_start + float(z.air.temperature)))
-        for z in zones
-    ]
+    tsurf = _stage_surface(product, transfer, t_start) if transfer is not None else None
+    zsurfs = [_stage_surface(product, z, t_start) for z in zones]
     # The transfer is the same for every residence: run it once.
     if transfer is not None:
         assert tsurf is not None
-        tres = _run(
+        tres = yield _run(
             product,
             start,
             [tsurf.segment(float(transfer.duration))],
@@ -1118,12 +1130,11 @@ def required_chill(
     else:
         transfer_hist, zone_start, transfer_heat = None, start, 0.0
 
-    def exit_core(taus: NDArray[np.float64], n_steps: int) -> NDArray[np.float64]:
+    def exit_run(taus: NDArray[np.float64], n_steps: int) -> RunRequest:
         segs = _zone_segments(zsurfs, zones, taus)
-        res = _run(
+        return _run(
             product, zone_start, segs, cells, batch=taus.size, steps=n_steps, total=taus.max()
         )
-        return res.core[:, -1]
 
     # ---- bracket the exit target: one coarse batched scan, then regula falsi
     # (Illinois) on single runs at full accuracy inside the bracket
@@ -1136,14 +1147,14 @@ def required_chill(
         )
 
     grid = np.geomspace(min(MIN_DWELL, max_residence / 1e3), max_residence, _COARSE_POINTS)
-    g = exit_core(grid, _SEARCH_STEPS) - target
+    g = (yield exit_run(grid, _SEARCH_STEPS)).core[:, -1] - target
     k = int(np.argmax(g <= 0)) if (g <= 0).any() else grid.size - 1
     # full-accuracy values at the bracket ends; widen where the coarse scan misjudged
     for _ in range(2 * grid.size):
         a = float(grid[k - 1]) if k > 0 else 0.0
         b = float(grid[k])
         ends = np.array([a, b]) if a > 0 else np.array([b])
-        vals = exit_core(ends, steps) - target
+        vals = (yield exit_run(ends, steps)).core[:, -1] - target
         fb = float(vals[-1])
         fa = float(vals[0]) if a > 0 else math.inf
         if fb > 0:
@@ -1161,7 +1172,7 @@ def required_chill(
             break
         c = b - fb * (b - a) / (fb - fa)
         c = min(max(c, a + 0.01 * (b - a)), b - 0.01 * (b - a))
-        fc = float(exit_core(np.array([c]), steps)[0] - target)
+        fc = float((yield exit_run(np.array([c]), steps)).core[0, -1] - target)
         if abs(fc) < 1e-2:  # within 0.01 K: the final run's bump covers the rest
             b, fb = c, fc
             break
@@ -1183,7 +1194,7 @@ def required_chill(
     for bump in _FINAL_BUMPS:
         tau = tau0 * (1.0 + bump)
         segs = _zone_segments(zsurfs, zones, tau)
-        res = _run(product, zone_start, segs, cells, batch=1, steps=steps, total=tau)
+        res = yield _run(product, zone_start, segs, cells, batch=1, steps=steps, total=tau)
         hist = _member_history(res, 0, names, zsurfs)
         if transfer_hist is not None:
             hist = transfer_hist.then(hist)
@@ -1245,10 +1256,106 @@ def required_freeze(
     return required_chill(product, initial, transfer, zones, rule, **options)
 
 
+def required_cook(
+    product: Any, air: Any, rule: CookRule, t_initial: ArrayLike | numeric.Profile, **options: Any
+) -> CookResult:
+    """Shortest oven dwell at which the core meets every clause of ``rule``.
+
+    Parameters, raised errors and method as for :func:`required_cook_job`
+    (``margin``, ``scale``, ``method``, ``max_dwell``, ``n_cells``,
+    ``steps``), whose search this runs on its own.
+
+    Returns
+    -------
+    CookResult
+    """
+    return run_job(required_cook_job(product, air, rule, t_initial, **options))
+
+
+def required_chill(
+    product: Any,
+    initial: CookResult | numeric.Profile | ArrayLike,
+    transfer: TransferStage | None,
+    zones: Sequence[TunnelZone],
+    rule: ChillRule | FreezeRule,
+    **options: Any,
+) -> ChillResult:
+    """Shortest tunnel residence meeting a chill (or freeze) rule.
+
+    Parameters, raised errors and method as for :func:`required_chill_job`
+    (``margin``, ``scale``, ``max_residence``, ``n_cells``, ``steps``,
+    ``tolerance``), whose search this runs on its own.
+
+    Returns
+    -------
+    ChillResult
+    """
+    return run_job(required_chill_job(product, initial, transfer, zones, rule, **options))
+
+
+def check_stages(
+    product: Any,
+    t_start: float,
+    *,
+    oven: Any = None,
+    transfer: TransferStage | None = None,
+    zones: Sequence[TunnelZone] | None = None,
+) -> None:
+    """Make every input check the solvers make for these stages, without solving.
+
+    Builds what :func:`required_cook`, :func:`required_chill` and
+    :func:`run_stages` build before their first step: the surface conditions
+    of every stage (h from the correlation registry, so a Reynolds or
+    Rayleigh number out of reach or a loading factor out of range shows up)
+    and the zone checks (shares, air getting warmer). Cheap: no heat
+    conduction is solved.
+
+    Parameters
+    ----------
+    product : Product
+        The product (largest piece).
+    t_start : float
+        Product temperature entering the first stage given [°C]; it sets the
+        film temperature of the surface conditions, as in the solvers.
+    oven : AirSetting or OvenStage, optional
+        Oven stage.
+    transfer : TransferStage, optional
+        Transfer in room air.
+    zones : sequence of TunnelZone, optional
+        Tunnel zones in belt order.
+
+    Raises
+    ------
+    ThermalInputError
+        The first input the solvers would refuse, named as they name it.
+    """
+    t0 = float(temperature_c("t_start", t_start))
+    if oven is not None:
+        _oven_surfaces(product, oven if isinstance(oven, OvenStage) else OvenStage(oven), t0)
+    if transfer is not None:
+        _stage_surface(product, transfer, t0)
+    if zones is not None:
+        for zone in _check_zones(zones):
+            _stage_surface(product, zone, t0)
+
+
 # --------------------------------------------------------------------------- forward runs
 
 
-def run_stages(
+def run_stages(*args: Any, **options: Any) -> tuple[History, numeric.Profile]:
+    """Simulate a product through given stages and times (no search).
+
+    Parameters as for :func:`run_stages_job`, which this runs on its own.
+
+    Returns
+    -------
+    (History, numeric.Profile)
+        Histories of every stage in one run and the final profile.
+    """
+    return run_job(run_stages_job(*args, **options))
+
+
+def run_stages_job(
     product: Any,
     t_initial: ArrayLike | numeric.Profile,
     oven: OvenStage | None,
@@ -1260,8 +1367,8 @@ def run_stages(
     scale: float = 1.0,
     n_cells: int | Sequence[int] | None = None,
     steps: int = DEFAULT_STEPS,
-) -> tuple[History, numeric.Profile]:
-    """Simulate a product through given stages and times (no search).
+) -> Job:
+    """Simulate a product through given stages and times (no search), as a job.
 
     Parameters
     ----------
@@ -1284,8 +1391,10 @@ def run_stages(
 
     Returns
     -------
-    (History, numeric.Profile)
-        Histories of every stage in one run and the final profile.
+    Job
+        A generator of :class:`thermal.jobs.RunRequest` whose value is
+        (History, numeric.Profile): histories of every stage in one run and
+        the final profile.
     """
     product = _scaled(product, scale)
     initial = _check_initial(t_initial, "t_initial")
@@ -1308,12 +1417,7 @@ def run_stages(
         total += dwell
         t_start = float(oven.air.temperature)
     if transfer is not None:
-        s = _surface(
-            product,
-            transfer.air,
-            transfer.loading_factor,
-            0.5 * (t_start + float(transfer.air.temperature)),
-        )
+        s = _stage_surface(product, transfer, t_start)
         segs.append(s.segment(float(transfer.duration)))
         names.append("transfer")
         surfaces.append(s)
@@ -1322,16 +1426,14 @@ def run_stages(
         zones = _check_zones(zones)
         residence = float(positive("residence [s]", residence))
         for i, z in enumerate(zones):
-            s = _surface(
-                product, z.air, z.loading_factor, 0.5 * (t_start + float(z.air.temperature))
-            )
+            s = _stage_surface(product, z, t_start)
             segs.append(s.segment(residence * float(z.share)))
             names.append(f"zone {i + 1}")
             surfaces.append(s)
         total += residence
     if not segs:
         raise ThermalInputError("oven: give at least one stage (oven, transfer or zones)")
-    res = _run(product, initial, segs, cells, batch=1, steps=steps, total=total)
+    res = yield _run(product, initial, segs, cells, batch=1, steps=steps, total=total)
     hist = _member_history(res, 0, names, surfaces)
     n_oven = names.count("oven")
     if n_oven > 1:

@@ -24,7 +24,7 @@ import time
 import numpy as np
 import pandas as pd
 
-from optimizer.inputs import (
+from optimizer.planning.inputs import (
     LoadingOption,
     OrderData,
     OvenData,
@@ -34,7 +34,7 @@ from optimizer.inputs import (
     SolveOptions,
     TunnelData,
 )
-from optimizer.solve import plan
+from optimizer.planning.solve import plan
 
 SIZES = {
     # name: products, ovens, oven settings, tunnels, tunnel settings, shifts

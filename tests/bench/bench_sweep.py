@@ -28,7 +28,7 @@ import yaml
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from optimizer.sweep import load_study, run_study
+from optimizer.studies.study import load_study, run_study
 
 PLANT = {
     "plant": "Benchmark plant (invented)",

@@ -1,6 +1,6 @@
 """The shift-plan MILP, built with PuLP from the candidate loads and routes.
 
-Only this module and :mod:`optimizer.solve` import PuLP.
+Only this module and :mod:`optimizer.planning.solve` import PuLP.
 
 Variables (per shift ``s``)
 
@@ -45,8 +45,8 @@ import numpy as np
 import pulp
 import scipy.sparse as sp
 
-from optimizer.inputs import Objective, PlanInputs
-from optimizer.loads import BatchLoad, Candidates, ShiftPattern, TunnelRoute, make_pattern
+from optimizer.planning.inputs import Objective, PlanInputs
+from optimizer.planning.loads import BatchLoad, Candidates, ShiftPattern, TunnelRoute, make_pattern
 
 TIE_BREAK = 1e-3
 """Largest total weight of the tie-break term [objective units]."""
@@ -313,7 +313,7 @@ def build_model(
     inputs : PlanInputs
         Planner inputs.
     cand : Candidates
-        Cook options, routes and single loads (from :func:`optimizer.loads.candidates`).
+        Cook options, routes and single loads (from :func:`optimizer.planning.loads.candidates`).
     mixed : sequence of BatchLoad
         Mixed loads to include.
     elastic : bool

@@ -1,6 +1,6 @@
 """Plan results: typed records, pandas tables and a text summary.
 
-The solver layer (:mod:`optimizer.solve`) fills a :class:`PlanResult`; this
+The solver layer (:mod:`optimizer.planning.solve`) fills a :class:`PlanResult`; this
 module turns it into the tables a shift planner reads: batches per oven per
 shift, tunnel runs with belt speed and loading, totals, utilisation, shadow
 prices of machine time, slack per constraint group, the bottleneck, and -
@@ -19,7 +19,7 @@ from enum import Enum
 
 import pandas as pd
 
-from optimizer.inputs import Objective
+from optimizer.planning.inputs import Objective
 
 CAUTION = (
     "Caution: dwell times and belt speeds are model estimates for the largest piece "

@@ -19,14 +19,14 @@ Pattern formulation (``SolveOptions.formulation = "patterns"``): oven-shift
 patterns are generated on the LP (duals of the flow rows give the value of
 each kg an oven setting unloads; the best pattern of each oven and shift is
 an exact knapsack over whole minutes, see
-:func:`optimizer.loads.best_shift_pattern`), then the MILP picks one pattern
+:func:`optimizer.planning.loads.best_shift_pattern`), then the MILP picks one pattern
 per oven and shift from those generated. The bound reported is the pattern
 LP's at convergence, so the gap is honest; the MILP over generated columns
 is a heuristic and on the benchmark plants it did worse than the compact
 formulation. If the generated patterns cannot meet the order minimums the
 compact formulation is solved instead.
 
-Only this module and :mod:`optimizer.model` import PuLP.
+Only this module and :mod:`optimizer.planning.model` import PuLP.
 
 Status is read from ``prob.status`` and ``prob.sol_status``: a time limit
 with an incumbent shows as ``LpStatusOptimal`` with ``sol_status ==
@@ -45,8 +45,8 @@ import highspy
 import numpy as np
 import pulp
 
-from optimizer.inputs import Objective, PlanInputs, SolveOptions
-from optimizer.loads import (
+from optimizer.planning.inputs import Objective, PlanInputs, SolveOptions
+from optimizer.planning.loads import (
     Candidates,
     ShiftPattern,
     best_shift_pattern,
@@ -54,8 +54,8 @@ from optimizer.loads import (
     make_pattern,
     price_mixed_loads,
 )
-from optimizer.model import PlanModel, build_model
-from optimizer.results import (
+from optimizer.planning.model import PlanModel, build_model
+from optimizer.planning.results import (
     ELASTIC_STOPPED,
     OBJECTIVE_UNITS,
     BatchContent,

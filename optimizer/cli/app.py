@@ -15,7 +15,7 @@ Subcommands
 ``compare A B ...``
     Several scenarios planned and put side by side.
 ``sweep STUDY``
-    What-if study (:mod:`optimizer.sweep`): one plan per point, purchases priced.
+    What-if study (:mod:`optimizer.studies.study`): one plan per point, purchases priced.
 ``schema``
     JSON Schema of scenario files, for editors that check YAML/JSON.
 
@@ -42,6 +42,7 @@ from __future__ import annotations
 import argparse
 import hashlib
 import json
+import math
 import os
 import re
 import sys
@@ -66,7 +67,7 @@ from rich.progress import (
 )
 from rich.table import Table
 
-from optimizer import export
+from optimizer.reporting import export
 
 __all__ = [
     "EXIT_BAD_INPUT",
@@ -114,7 +115,7 @@ def resolved_sha256(scenario: Any) -> str:
     and hashed, so two runs of the same plant data give the same hash
     whatever file layout or overrides produced it.
     """
-    from optimizer.scenario import scenario_to_dict
+    from optimizer.scenario.models import scenario_to_dict
 
     text = json.dumps(scenario_to_dict(scenario), sort_keys=True, separators=(",", ":"))
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
@@ -281,7 +282,7 @@ def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
 
     Returns
     -------
-    optimizer.scenario.Scenario
+    optimizer.scenario.models.Scenario
         The validated scenario.
 
     Raises
@@ -290,8 +291,9 @@ def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
         Listing every problem, each prefixed with the file name.
     """
     path = _scenario_path(path_text)
-    from optimizer.overrides import OverrideError, parse_assignment
-    from optimizer.scenario import ScenarioError, load_scenario
+    from optimizer.dwell.checks import load_checked_scenario
+    from optimizer.scenario.models import ScenarioError
+    from optimizer.scenario.overrides import OverrideError, parse_assignment
 
     changes = []
     problems = []
@@ -303,9 +305,13 @@ def load(path_text: str, args: argparse.Namespace | None = None) -> Any:
     if problems:
         raise BadInput(problems)
     try:
-        return load_scenario(path, changes)
+        return load_checked_scenario(path, changes)
     except ScenarioError as exc:
-        raise BadInput([f"{path_text}: {p}" for p in _problems(exc)]) from exc
+        # a line about the file itself names it already (the extends chain too)
+        own = (f"{path_text}: ", f"{Path(path).resolve()}: ")
+        raise BadInput(
+            [p if p.startswith(own) else f"{path_text}: {p}" for p in _problems(exc)]
+        ) from exc
 
 
 def _problems(exc: BaseException) -> list[str]:
@@ -347,7 +353,7 @@ def cache_dir(args: argparse.Namespace) -> Path | None:
 
 def dwell_table(scenario: Any, args: argparse.Namespace, ui: Ui) -> pd.DataFrame:
     """Build (or read from the cache) the dwell table, with a progress bar."""
-    from optimizer.dwell import build_dwell_table
+    from optimizer.dwell.table import build_dwell_table
 
     with ui.progress("dwell table") as callback:
         return build_dwell_table(scenario, cache_dir=cache_dir(args), progress=callback)
@@ -390,10 +396,63 @@ def _scenario_summary(scenario: Any) -> dict[str, int]:
 # ---------------------------------------------------------------------------
 
 
+def render_dwell_table(table: pd.DataFrame, *, title: str = "Dwell table") -> Table:
+    """The dwell table as a :class:`rich.table.Table` for the terminal.
+
+    One line per row: the keys, cook and chill minutes with the method and the
+    binding clause, the fastest belt speed, and for ruled-out rows the
+    reason. Ruled-out rows are dimmed.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        A dwell table (:func:`optimizer.dwell.table.build_dwell_table`).
+    title : str
+        Title printed above the table.
+    """
+    out = Table(title=title, title_justify="left", header_style="bold")
+    for label, justify in (
+        ("product", "left"),
+        ("oven / setting", "left"),
+        ("tunnel / setting / loading", "left"),
+        ("cook min", "right"),
+        ("chill min", "right"),
+        ("belt ≤ m/min", "right"),
+        ("binds / why not", "left"),
+    ):
+        out.add_column(label, justify=justify, overflow="fold")
+
+    def minutes(value: float, method: str) -> str:
+        if not math.isfinite(value):
+            return "—"
+        return f"{value:.1f}" + (f" ({method[0]})" if method else "")
+
+    for r in table.itertuples(index=False):
+        if r.feasible:
+            status = f"cook: {r.cook_binding}; chill: {r.chill_binding}"
+        else:
+            status = r.reason
+        out.add_row(
+            r.product,
+            f"{r.oven} / {r.oven_setting}",
+            f"{r.tunnel} / {r.tunnel_setting} / {r.loading}",
+            minutes(r.cook_min, r.cook_method),
+            minutes(r.chill_min, r.chill_method),
+            "—"
+            if not math.isfinite(r.max_belt_speed_m_per_min)
+            else f"{r.max_belt_speed_m_per_min:.2f}",
+            status,
+            style=None if r.feasible else "dim",
+        )
+    out.caption = (
+        "(s) exact series, (n) finite volumes; largest piece, safety margin included. "
+        "Model estimates: validate with probes against the plant's food-safety plan."
+    )
+    return out
+
+
 def cmd_dwell(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace dwell SCENARIO``: print and write the dwell table."""
-    from optimizer.dwell import render_dwell_table
-
     scenario = load(args.scenario, args)
     target = out_dir(args, args.scenario)
     table = dwell_table(scenario, args, ui)
@@ -436,13 +495,13 @@ class PlanRun:
         Hash of the scenario file.
     resolved_sha256 : str
         Hash of the validated scenario content (:func:`resolved_sha256`).
-    scenario : optimizer.scenario.Scenario
+    scenario : optimizer.scenario.models.Scenario
         The validated scenario.
     dwell : pandas.DataFrame
         Its dwell table.
-    inputs : optimizer.inputs.PlanInputs
+    inputs : optimizer.planning.inputs.PlanInputs
         Planner inputs.
-    result : optimizer.results.PlanResult
+    result : optimizer.planning.results.PlanResult
         The plan (or diagnosis).
     tables : dict of str to pandas.DataFrame
         Every table exported and shown in the report.
@@ -460,7 +519,7 @@ class PlanRun:
 
 def solve_options(args: argparse.Namespace, **overrides: Any) -> Any:
     """Planner options from the command line (``--time-limit``, ``--gap``, ``--solver``)."""
-    from optimizer.inputs import SolveOptions
+    from optimizer.planning.inputs import SolveOptions
 
     kwargs: dict[str, Any] = {}
     if getattr(args, "time_limit", None) is not None:
@@ -514,7 +573,7 @@ def rules_table(scenario: Any, products: Sequence[str]) -> pd.DataFrame:
 
     Parameters
     ----------
-    scenario : optimizer.scenario.Scenario
+    scenario : optimizer.scenario.models.Scenario
         The scenario (rules resolved through its rule library).
     products : sequence of str
         Products to list.
@@ -628,7 +687,7 @@ def _rule_marks(
     tunnel_end: float,
 ) -> list[Any]:
     """Rule targets and windows to draw on a product's temperature plot [min, °C]."""
-    from optimizer.report import RuleMark
+    from optimizer.reporting.html import RuleMark
 
     marks = []
     holds = sorted(cook.holds, key=lambda h: h.core_temperature)
@@ -700,7 +759,7 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
     transfer stage, and the tunnel zones for the residence the planned belt
     speed gives (tunnel length / speed), with :func:`thermal.process.run_stages`
     — the same conversions from the scenario as the dwell table
-    (:mod:`optimizer.dwell`).
+    (:mod:`optimizer.dwell.table`).
 
     Parameters
     ----------
@@ -716,8 +775,9 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
         return []
     import numpy as np
 
-    from optimizer import dwell as dw
-    from optimizer.report import CurveSet, Stage
+    from optimizer.dwell import convert
+    from optimizer.dwell.stages import transfer_stage, tunnel_zones
+    from optimizer.reporting.html import CurveSet, Stage
     from thermal import lethality, process
 
     scenario = run.scenario
@@ -744,25 +804,25 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
         loading = next(x for x in tunnel.loadings if x.name == loading_name)
         cook_min = float(table.loc[key, "cook_min"])
         residence_min = tunnel.length / speed[key]
-        factor = dw._loading_factor(loading)
+        factor = convert.loading_factor(loading)
         transfer = (
-            dw._transfer(tunnel.transfer, tunnel.transfer.duration)
+            transfer_stage(tunnel.transfer, tunnel.transfer.duration)
             if tunnel.transfer is not None
             else None
         )
         hist_oven, profile = process.run_stages(
-            dw.thermal_product(product, emissivity=oset.emissivity),
+            convert.thermal_product(product, emissivity=oset.emissivity),
             product.initial_temperature,
-            process.OvenStage(dw.air_setting(oset)),
+            process.OvenStage(convert.air_setting(oset)),
             cook_min * 60.0,
         )
         hist_tunnel, _ = process.run_stages(
-            dw.thermal_product(product),
+            convert.thermal_product(product),
             profile,
             None,
             0.0,
             transfer,
-            dw.tunnel_zones(tunnel, tset, factor),
+            tunnel_zones(tunnel, tset, factor),
             residence_min * 60.0,
         )
         hist = hist_oven.then(hist_tunnel)
@@ -821,7 +881,7 @@ def methods_used(dwell: pd.DataFrame, scenario: Any) -> list[tuple[str, str]]:
     dwell : pandas.DataFrame
         The dwell table (``cook_method``/``chill_method`` say which
         conduction solution each row used).
-    scenario : optimizer.scenario.Scenario
+    scenario : optimizer.scenario.models.Scenario
         The scenario (shapes of the products, measured coefficients).
 
     Returns
@@ -937,9 +997,9 @@ def quiet_solver_banner() -> None:
 
 def run_plan(path: str, scenario: Any, args: argparse.Namespace, ui: Ui) -> PlanRun:
     """Dwell table, planner inputs and the solve for one validated scenario."""
-    from optimizer.adapter import plan_inputs
-    from optimizer.results import plan_tables
-    from optimizer.solve import plan
+    from optimizer.planning.adapter import plan_inputs
+    from optimizer.planning.results import plan_tables
+    from optimizer.planning.solve import plan
 
     dwell = dwell_table(scenario, args, ui)
     inputs = plan_inputs(scenario, dwell)
@@ -965,7 +1025,7 @@ def run_plan(path: str, scenario: Any, args: argparse.Namespace, ui: Ui) -> Plan
 
 
 def _status_code(result: Any) -> int:
-    from optimizer.results import SolveStatus
+    from optimizer.planning.results import SolveStatus
 
     if result.status.has_plan:
         return EXIT_OK
@@ -975,7 +1035,7 @@ def _status_code(result: Any) -> int:
 
 
 def _bottleneck_json(result: Any) -> dict[str, Any] | None:
-    from optimizer.results import bottleneck
+    from optimizer.planning.results import bottleneck
 
     bn = bottleneck(result)
     return None if bn is None else export.to_jsonable(bn)
@@ -1021,7 +1081,7 @@ def made_at() -> str:
 
 
 def _run_info(run: PlanRun, argv_text: str) -> Any:
-    from optimizer.report import RunInfo
+    from optimizer.reporting.html import RunInfo
 
     return RunInfo(
         scenario_path=run.path,
@@ -1036,7 +1096,7 @@ def _run_info(run: PlanRun, argv_text: str) -> Any:
 
 def write_plan_outputs(run: PlanRun, target: Path, argv_text: str) -> list[Path]:
     """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report."""
-    from optimizer.report import plan_report
+    from optimizer.reporting.html import plan_report
 
     protect = [run.path]
     written = export.write_tables(target, run.tables, workbook="plan.xlsx", protect=protect)
@@ -1058,7 +1118,7 @@ def write_plan_outputs(run: PlanRun, target: Path, argv_text: str) -> list[Path]
 
 def plan_summary(run: PlanRun, ui: Ui) -> None:
     """Print the plan's summary and its tables readably."""
-    from optimizer.results import summary_text
+    from optimizer.planning.results import summary_text
 
     r = run.result
     ui.say(summary_text(r))
@@ -1070,7 +1130,7 @@ def plan_summary(run: PlanRun, ui: Ui) -> None:
 
 def rich_table(table: pd.DataFrame, *, title: str) -> Table:
     """Any table as a rich table (numbers right-aligned, rounded for reading)."""
-    from optimizer.report import COLUMN_LABELS, column_decimals, format_cell
+    from optimizer.reporting.html import COLUMN_LABELS, column_decimals, format_cell
 
     out = Table(title=title, title_justify="left", header_style="bold")
     numeric = {c: pd.api.types.is_numeric_dtype(table[c]) for c in table.columns}
@@ -1204,7 +1264,7 @@ def _mix_inputs(inputs: Any, shares: Mapping[str, float], total_kg: float | None
     import dataclasses
     import math
 
-    from optimizer.inputs import Objective, OrderData
+    from optimizer.planning.inputs import Objective, OrderData
 
     orders = tuple(
         OrderData(
@@ -1245,9 +1305,9 @@ class CapacityResult:
         search's upper end).
     solves : int
         Plans solved in the search [-].
-    plan : optimizer.results.PlanResult
+    plan : optimizer.planning.results.PlanResult
         The plan at ``total_kg`` (with utilisation and shadow prices).
-    limit : optimizer.results.PlanResult or None
+    limit : optimizer.planning.results.PlanResult or None
         The diagnosis just above ``total_kg`` (what runs out first).
     """
 
@@ -1289,11 +1349,11 @@ def max_mix_capacity(
 
     Parameters
     ----------
-    inputs : optimizer.inputs.PlanInputs
+    inputs : optimizer.planning.inputs.PlanInputs
         Planner inputs of the scenario.
     shares : mapping of str to float
         Product → share (sum 1).
-    options : optimizer.inputs.SolveOptions
+    options : optimizer.planning.inputs.SolveOptions
         Solver options for every solve.
     shifts_per_week : float
         Shifts a week, for kg per week [-].
@@ -1309,7 +1369,7 @@ def max_mix_capacity(
     """
     import dataclasses
 
-    from optimizer.solve import plan
+    from optimizer.planning.solve import plan
 
     quick = dataclasses.replace(options, shadow_prices=False, diagnose=False)
     solves = 0
@@ -1395,7 +1455,7 @@ def full_machines(result: Any) -> list[str]:
 
 def capacity_tables(cap: CapacityResult) -> dict[str, pd.DataFrame]:
     """Tables of a capacity run: the mix, the limits, and the plan at capacity."""
-    from optimizer.results import plan_tables
+    from optimizer.planning.results import plan_tables
 
     mix = pd.DataFrame(
         [
@@ -1449,7 +1509,7 @@ def capacity_json(path: str, cap: CapacityResult, tables: Mapping[str, pd.DataFr
 
 def cmd_capacity(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace capacity SCENARIO``: most kg per hour and week for a fixed mix."""
-    from optimizer.adapter import plan_inputs
+    from optimizer.planning.adapter import plan_inputs
 
     scenario = load(args.scenario, args)
     names = [p.name for p in scenario.products]
@@ -1503,7 +1563,7 @@ def capacity_report(
     path: str, scenario: Any, cap: CapacityResult, tables: Mapping[str, pd.DataFrame], command: str
 ) -> str:
     """The HTML page of a capacity run."""
-    from optimizer.report import SAFETY_CAUTION, HtmlReport, utilisation_figure
+    from optimizer.reporting.html import SAFETY_CAUTION, HtmlReport, utilisation_figure
 
     plant = getattr(scenario, "plant", Path(path).stem)
     report = HtmlReport(
@@ -1581,7 +1641,7 @@ def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFram
     price, solve seconds. Values are strings or numbers; a product or machine
     a scenario does not have is empty.
     """
-    from optimizer.results import bottleneck
+    from optimizer.planning.results import bottleneck
 
     products = sorted({r.product for run in runs for r in run.result.runs})
     machines = list(dict.fromkeys(u.machine for run in runs for u in run.result.machine_use))
@@ -1626,7 +1686,7 @@ def compare_report(
     """The HTML page comparing several scenarios."""
     from matplotlib.figure import Figure
 
-    from optimizer.report import BAR_COLOURS, SAFETY_CAUTION, HtmlReport
+    from optimizer.reporting.html import BAR_COLOURS, SAFETY_CAUTION, HtmlReport
 
     report = HtmlReport(
         "Scenario comparison",
@@ -1723,7 +1783,7 @@ def cmd_compare(args: argparse.Namespace, ui: Ui) -> int:
 
 def cmd_schema(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace schema``: the JSON Schema of scenario files."""
-    from optimizer.scenario import scenario_json_schema
+    from optimizer.scenario.models import scenario_json_schema
 
     schema = scenario_json_schema()
     text = json.dumps(schema, indent=2, ensure_ascii=False) + "\n"
@@ -1944,7 +2004,7 @@ def build_parser() -> argparse.ArgumentParser:
     _cache_options(p)
     p.set_defaults(func=cmd_compare)
 
-    from optimizer.sweep import add_sweep_parser
+    from optimizer.studies.study import add_sweep_parser
 
     add_sweep_parser(sub)
 
@@ -2051,7 +2111,7 @@ def _input_error(exc: Exception) -> list[str] | None:
     except ImportError:  # pragma: no cover - thermal is part of the package
         pass
     try:
-        from optimizer.inputs import PlanInputError
+        from optimizer.planning.inputs import PlanInputError
 
         kinds.append(PlanInputError)
     except ImportError:

@@ -9,6 +9,13 @@ file, and an interrupted run leaves no partial output behind.
 Input files are never written: every writer takes a ``protect`` set of paths
 (the scenario files of the run) and refuses to write over any of them.
 
+Text that a spreadsheet would read as a formula (a cell starting with ``=``,
+``+``, ``-``, ``@``, a tab or a carriage return, such as a product named
+``=HYPERLINK(...)``) is never live: XLSX cells holding it are written as
+text with Excel's quote prefix, and CSV cells get a leading single quote, as
+the usual CSV-injection guidance says (OWASP, "CSV Injection"). Numbers are
+not touched, so a negative number stays a number.
+
 The JSON helpers turn the objects of a run (pandas tables, numpy scalars,
 frozen dataclasses, enums, paths) into plain JSON values; NaN and infinities
 become ``null`` so the output is strict JSON that any parser accepts.
@@ -16,6 +23,7 @@ become ``null`` so the output is strict JSON that any parser accepts.
 
 from __future__ import annotations
 
+import csv
 import dataclasses
 import enum
 import io
@@ -33,10 +41,12 @@ import numpy as np
 import pandas as pd
 
 __all__ = [
+    "FORMULA_STARTS",
     "OutputError",
     "atomic_write_bytes",
     "atomic_write_text",
     "excel_sheet_names",
+    "formula_like",
     "prepare_out_dir",
     "table_records",
     "to_jsonable",
@@ -260,6 +270,39 @@ def _has_named_index(table: pd.DataFrame) -> bool:
     return any(name is not None for name in table.index.names)
 
 
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+"""First characters that make a spreadsheet read a text cell as a formula."""
+
+
+def formula_like(value: Any) -> bool:
+    """True when ``value`` is text a spreadsheet would take for a formula.
+
+    A lone ``-`` or ``+`` (a table's placeholder for "no value") is not a
+    formula in any spreadsheet and is left as it is.
+    """
+    return isinstance(value, str) and value.startswith(FORMULA_STARTS) and value not in "-+"
+
+
+def _is_text(column: pd.Series) -> bool:
+    return column.dtype == object or pd.api.types.is_string_dtype(column.dtype)
+
+
+def _csv_guarded(frame: pd.DataFrame) -> pd.DataFrame:
+    """``frame`` with every formula-like text cell and header prefixed by ``'``."""
+
+    def guard(value: Any) -> Any:
+        return "'" + value if formula_like(value) else value
+
+    text_columns = [c for c in frame.columns if _is_text(frame[c])]
+    if not text_columns and not any(formula_like(c) for c in frame.columns):
+        return frame
+    out = frame.copy()
+    for column in text_columns:
+        out[column] = out[column].map(guard)
+    out.columns = [guard(c) for c in out.columns]
+    return out
+
+
 def write_json(
     path: str | os.PathLike[str],
     obj: Any,
@@ -295,7 +338,8 @@ def write_csv(
     """Write ``table`` as UTF-8 CSV (comma separated, no index), atomically.
 
     Floats are written with full precision (``repr``), so reading the file
-    back gives the same numbers; missing values are empty cells.
+    back gives the same numbers; missing values are empty cells. Text cells
+    (and headers) a spreadsheet would read as a formula get a leading ``'``.
 
     Parameters
     ----------
@@ -311,8 +355,17 @@ def write_csv(
     pathlib.Path
         The written path.
     """
-    frame = table.reset_index() if _has_named_index(table) else table
-    text = frame.to_csv(index=False, lineterminator="\n")
+    frame = _csv_guarded(table.reset_index() if _has_named_index(table) else table)
+    # The csv writer quotes a field holding "\n" but not one holding a bare
+    # "\r", which readers take for a line break: then quote every text field.
+    bare_cr = any(
+        isinstance(v, str) and "\r" in v
+        for column in frame.columns
+        if _is_text(frame[column])
+        for v in frame[column]
+    ) or any("\r" in str(c) for c in frame.columns)
+    quoting = csv.QUOTE_NONNUMERIC if bare_cr else csv.QUOTE_MINIMAL
+    text = frame.to_csv(index=False, lineterminator="\n", quoting=quoting)
     return atomic_write_text(path, text, protect=protect)
 
 
@@ -370,6 +423,12 @@ def write_xlsx(
     -------
     pathlib.Path
         The written path.
+
+    Notes
+    -----
+    Every text cell a spreadsheet would read as a formula (see
+    :data:`FORMULA_STARTS`) is stored as text with the quote prefix, so it
+    shows as typed and is never evaluated.
     """
     buffer = io.BytesIO()
     sheets = excel_sheet_names(tables.keys())
@@ -380,12 +439,22 @@ def write_xlsx(
             frame = table.reset_index() if _has_named_index(table) else table
             frame.to_excel(writer, sheet_name=sheet, index=False)
             worksheet = writer.sheets[sheet]
+            _as_text(worksheet)
             worksheet.freeze_panes = "A2"
             for idx, column in enumerate(frame.columns, start=1):
                 values = [str(column), *(str(v) for v in frame[column].head(200))]
                 width = min(max(len(v) for v in values) + 2, 48)
                 worksheet.column_dimensions[_excel_column(idx)].width = width
     return atomic_write_bytes(path, buffer.getvalue(), protect=protect)
+
+
+def _as_text(worksheet: Any) -> None:
+    """Store every formula-like text cell of an openpyxl worksheet as quoted text."""
+    for row in worksheet.iter_rows():
+        for cell in row:
+            if formula_like(cell.value):
+                cell.data_type = "s"
+                cell.quotePrefix = True
 
 
 def _excel_column(index: int) -> str:

@@ -30,7 +30,7 @@ Each change is one of
 
 ``{set: PATH, value: V}`` / ``{add: PATH, value: V, copy_of: NAME}``
     A dotted-path change exactly as in scenario files
-    (:mod:`optimizer.overrides`); values keep their units as strings.
+    (:mod:`optimizer.scenario.overrides`); values keep their units as strings.
 ``{what: KIND, value: V, ...}``
     A named what-if, worked out against the base scenario:
 
@@ -86,7 +86,7 @@ Each purchase option names the point that represents the plant with it; its
 extra kg per week over the base point times the margin per kg (the option's
 or the study's ``margin_per_kg``; when neither is given, the extra *value*
 per week from the products' ``value_per_kg``) times ``weeks_per_year`` is
-the extra margin per year, and :func:`optimizer.finance.purchase_case` gives
+the extra margin per year, and :func:`optimizer.studies.finance.purchase_case` gives
 the simple payback and the NPV at the discount rate over ``years``.
 
 CAUTION: every figure is a model estimate for the piece sizes entered; the
@@ -111,7 +111,6 @@ from pathlib import Path
 from typing import Any, Literal
 
 import pandas as pd
-import yaml
 from pydantic import (
     BaseModel,
     ConfigDict,
@@ -122,10 +121,10 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
-from optimizer.finance import PurchaseCase, annual_margin, purchase_case
-from optimizer.overrides import Change, OverrideError, apply_changes, load_raw
-from optimizer.sweep_exec import ExecMode, SweepPoint, done_indices, new_pool, run_points
-from optimizer.units import UnitParseError, parse_quantity
+from optimizer.scenario.overrides import Change, OverrideError, apply_changes, load_raw
+from optimizer.scenario.units import UnitParseError, parse_quantity
+from optimizer.studies.execute import ExecMode, SweepPoint, done_indices, new_pool, run_points
+from optimizer.studies.finance import PurchaseCase, annual_margin, purchase_case
 
 __all__ = [
     "WHAT_KINDS",
@@ -733,7 +732,7 @@ def expand_change(spec: ChangeSpec, raw: Mapping[str, Any], study: StudySpec) ->
 
     Returns
     -------
-    list of optimizer.overrides.Change
+    list of optimizer.scenario.overrides.Change
         Changes with values in the documented scenario units (m, °C, m/s, kg).
 
     Raises
@@ -923,16 +922,12 @@ def physics_signature(raw: Mapping[str, Any]) -> str:
 
 
 def _read_study_file(path: Path) -> Any:
+    from optimizer.scenario.overrides import OverrideError, read_yaml_file
+
     try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise StudyError([f"{path}: cannot read file ({exc.strerror})"]) from None
-    try:
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        line = f" at line {mark.line + 1}" if mark is not None else ""
-        raise StudyError([f"{path}: not valid YAML{line}"]) from None
+        data = read_yaml_file(path)
+    except OverrideError as exc:
+        raise StudyError([str(exc)]) from None
     if not isinstance(data, dict):
         raise StudyError([f"{path}: must hold a mapping of study fields (base, grid or points)"])
     return data
@@ -1111,7 +1106,8 @@ def check_study(study: Study) -> None:
     StudyError
         One line per problem, naming the point and the scenario field.
     """
-    from optimizer.scenario import ScenarioError, scenario_from_dict
+    from optimizer.dwell.checks import checked_scenario_from_dict
+    from optimizer.scenario.models import ScenarioError
 
     problems: list[str] = []
     seen: set[str] = set()
@@ -1126,7 +1122,7 @@ def check_study(study: Study) -> None:
             continue
         seen.add(key)
         try:
-            scenario_from_dict(raw, str(study.base_path))
+            checked_scenario_from_dict(raw, str(study.base_path))
         except ScenarioError as exc:
             for p in exc.problems:
                 line = f"{study.path}: {where}: {p}"
@@ -1198,18 +1194,18 @@ _BANNER_DONE = False
 def _quiet_banner() -> None:
     global _BANNER_DONE
     if not _BANNER_DONE:
-        from optimizer.cli import quiet_solver_banner
+        from optimizer.cli.app import quiet_solver_banner
 
         quiet_solver_banner()
         _BANNER_DONE = True
 
 
 def _scenario_of(point: SweepPoint) -> tuple[Any, dict[str, Any]]:
-    from optimizer.scenario import scenario_from_dict
+    from optimizer.dwell.checks import checked_scenario_from_dict
 
     ctx = dict(point.context)
     raw = apply_changes(json.loads(ctx["base"]), point.changes)
-    return scenario_from_dict(raw, f"{ctx.get('source', 'base')} [{point.label}]"), ctx
+    return checked_scenario_from_dict(raw, f"{ctx.get('source', 'base')} [{point.label}]"), ctx
 
 
 def warm_dwell(point: SweepPoint) -> dict[str, Any]:
@@ -1226,7 +1222,7 @@ def warm_dwell(point: SweepPoint) -> dict[str, Any]:
         ``{"index": ..., "rows": n, "error": ""}``; ``error`` holds the
         one-line problem when the point's scenario is refused.
     """
-    from optimizer.dwell import build_dwell_table
+    from optimizer.dwell.table import build_dwell_table
 
     try:
         scenario, ctx = _scenario_of(point)
@@ -1241,17 +1237,17 @@ def plan_row(scenario: Any, dwell: pd.DataFrame, result: Any) -> dict[str, Any]:
 
     Parameters
     ----------
-    scenario : optimizer.scenario.Scenario
+    scenario : optimizer.scenario.models.Scenario
         The point's scenario.
     dwell : pandas.DataFrame
         Its dwell table (heat per kg of every route).
-    result : optimizer.results.PlanResult
+    result : optimizer.planning.results.PlanResult
         The plan.
 
     Returns
     -------
     dict
-        ``status`` (a :class:`optimizer.results.SolveStatus` value),
+        ``status`` (a :class:`optimizer.planning.results.SolveStatus` value),
         ``has_plan``, ``gap`` (relative MIP gap [-]), ``total_kg`` [kg over
         the horizon], ``n_shifts``,
         ``kg_per_shift`` [kg], ``value`` [currency over the horizon, kg ×
@@ -1262,7 +1258,7 @@ def plan_row(scenario: Any, dwell: pd.DataFrame, result: Any) -> dict[str, Any]:
         ``utilisation`` (machine → mean over shifts [-]), ``kg_by_product``
         [kg], ``message``.
     """
-    from optimizer.results import bottleneck
+    from optimizer.planning.results import bottleneck
 
     machines = [o.name for o in scenario.ovens] + [t.name for t in scenario.tunnels]
     n_shifts = len(scenario.shifts)
@@ -1332,10 +1328,10 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
         point whose scenario is refused has ``status`` ``"invalid"`` and the
         problem in ``message``.
     """
-    from optimizer.adapter import plan_inputs
-    from optimizer.dwell import build_dwell_table
-    from optimizer.inputs import SolveOptions
-    from optimizer.solve import plan
+    from optimizer.dwell.table import build_dwell_table
+    from optimizer.planning.adapter import plan_inputs
+    from optimizer.planning.inputs import SolveOptions
+    from optimizer.planning.solve import plan
 
     head = {"index": point.index, "label": point.label}
     try:
@@ -1637,7 +1633,7 @@ def purchase_table(
     year (the option's ``margin_per_kg``, else the study's); with no margin
     per kg given, the extra value per week (kg × each product's
     ``value_per_kg``) × weeks per year. Payback and NPV from
-    :func:`optimizer.finance.purchase_case`.
+    :func:`optimizer.studies.finance.purchase_case`.
 
     Parameters
     ----------
@@ -1723,7 +1719,7 @@ _LINE_STYLES = ("-", "--", ":", "-.", (0, (5, 1)), (0, (1, 3)), (0, (3, 1, 1, 1)
 
 
 def _bottleneck_styles(table: pd.DataFrame) -> dict[str, tuple[str, str]]:
-    from optimizer.report import BAR_COLOURS
+    from optimizer.reporting.html import BAR_COLOURS
 
     names = [b for b in dict.fromkeys(table["bottleneck"].fillna("")) if b]
     return {
@@ -1744,7 +1740,7 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
     """
     from matplotlib.figure import Figure
 
-    from optimizer.report import INK, MUTED
+    from optimizer.reporting.html import INK, MUTED
 
     study, table = result.study, result.table
     styles = _bottleneck_styles(table)
@@ -1915,7 +1911,7 @@ def sweep_report(
     point), the purchase options side by side with payback and NPV, the
     plots, the results table, and the points without a plan.
     """
-    from optimizer.report import SAFETY_CAUTION, HtmlReport
+    from optimizer.reporting.html import SAFETY_CAUTION, HtmlReport
 
     study, table = result.study, result.table
     plant = str(study.base_raw.get("plant", study.base_path.stem))
@@ -2017,7 +2013,7 @@ def add_sweep_parser(subparsers: Any) -> argparse.ArgumentParser:
     argparse.ArgumentParser
         The ``sweep`` parser (its ``func`` is :func:`cmd_sweep`).
     """
-    from optimizer import cli
+    from optimizer.cli import app as cli
 
     p = subparsers.add_parser(
         "sweep",
@@ -2075,7 +2071,7 @@ def _workers(text: str) -> int:
 
 
 def _sweep_json(result: SweepResult, files: Sequence[Path]) -> dict[str, Any]:
-    from optimizer import export
+    from optimizer.reporting import export
 
     study = result.study
     return {
@@ -2102,12 +2098,12 @@ def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
 
     Raises
     ------
-    optimizer.cli.BadInput
+    optimizer.cli.app.BadInput
         For a bad study file or option, or a ``--cluster`` address where no
         scheduler answers (nothing is written).
     """
-    from optimizer import cli
-    from optimizer.overrides import parse_assignment
+    from optimizer.cli import app as cli
+    from optimizer.scenario.overrides import parse_assignment
 
     study_path = Path(args.study)
     if not study_path.is_file():
@@ -2146,11 +2142,11 @@ def _connect(address: str) -> Any:
 
     Raises
     ------
-    optimizer.cli.BadInput
+    optimizer.cli.app.BadInput
         One line when dask.distributed is missing, the address is malformed
         or no scheduler answers within :data:`CLUSTER_CONNECT_TIMEOUT_S`.
     """
-    from optimizer import cli
+    from optimizer.cli import app as cli
 
     try:
         from distributed import Client
@@ -2175,7 +2171,8 @@ def _sweep_into(
     client: Any,
 ) -> int:
     """Run the points of a loaded study and write its tables and report into ``target``."""
-    from optimizer import cli, export
+    from optimizer.cli import app as cli
+    from optimizer.reporting import export
 
     cli._prepare_out(target)
     done_dir = target / "points"
@@ -2263,10 +2260,10 @@ def run_sweep(args: argparse.Namespace, ui: Any | None = None) -> int:
     ----------
     args : argparse.Namespace
         Arguments parsed by the parser of :func:`add_sweep_parser`.
-    ui : optimizer.cli.Ui, optional
+    ui : optimizer.cli.app.Ui, optional
         Terminal output (default: from ``--quiet``/``--json``).
     """
-    from optimizer import cli
+    from optimizer.cli import app as cli
 
     ui = ui or cli.Ui(quiet=args.quiet, json_mode=args.json)
     try:
@@ -2279,8 +2276,8 @@ def run_sweep(args: argparse.Namespace, ui: Any | None = None) -> int:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m optimizer.sweep STUDY ...``: the same as ``corepace sweep STUDY ...``."""
-    from optimizer import cli
+    """``python -m optimizer.studies.study STUDY ...``: the same as ``corepace sweep STUDY ...``."""
+    from optimizer.cli import app as cli
 
     parser = argparse.ArgumentParser(prog="corepace", formatter_class=cli._Formatter)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")

@@ -34,16 +34,208 @@ is resolved.
 from __future__ import annotations
 
 import copy
+import os
+import stat
 from collections.abc import Iterable, Mapping, MutableMapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import yaml
+from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
+from yaml.reader import ReaderError
+
+from optimizer.scenario.units import shown, shown_key
 
 
 class OverrideError(ValueError):
     """A change names a path that does not exist or is written wrongly."""
+
+
+MAX_FILE_BYTES = 4 * 1024 * 1024
+"""Largest scenario or study file read [bytes] (the demo scenario is about 8 kB)."""
+MAX_EXPANDED_SIZE = 1_000_000
+"""Largest YAML document accepted, counted after aliases are expanded: one per
+value plus the characters of every text [-]. It bounds what validation and
+error messages walk; an alias bomb exceeds it at once."""
+MAX_NESTING = 40
+"""Deepest nesting of lists and mappings accepted in a YAML document [-]."""
+
+
+class _DocumentTooLarge(yaml.YAMLError):
+    """Raised while composing: nesting too deep (with the line)."""
+
+    def __init__(self, message: str, line: int | None) -> None:
+        super().__init__(message)
+        self.message = message
+        self.line = line
+
+
+class _BoundedLoader(yaml.SafeLoader):
+    """Safe YAML loader that refuses nesting deeper than :data:`MAX_NESTING` as it composes."""
+
+    def __init__(self, stream: str) -> None:
+        super().__init__(stream)
+        self._depth = 0
+
+    def compose_node(self, parent: Node | None, index: Any) -> Node | None:
+        self._depth += 1
+        try:
+            if self._depth > MAX_NESTING:
+                mark = self.peek_event().start_mark
+                raise _DocumentTooLarge(
+                    f"lists and mappings nested deeper than {MAX_NESTING} levels",
+                    mark.line + 1 if mark is not None else None,
+                )
+            return super().compose_node(parent, index)
+        finally:
+            self._depth -= 1
+
+
+def _construct_int(loader: yaml.SafeLoader, node: ScalarNode) -> int:
+    digits = sum(ch.isdigit() for ch in node.value)
+    if digits > 1000:  # Python refuses to read integers of more than 4300 digits
+        raise _DocumentTooLarge(
+            f"a number of {digits} digits; accepted: numbers up to about 1e308",
+            node.start_mark.line + 1,
+        )
+    return yaml.SafeLoader.construct_yaml_int(loader, node)
+
+
+_BoundedLoader.add_constructor("tag:yaml.org,2002:int", _construct_int)
+
+
+def _expanded(node: Node, sizes: dict[int, tuple[int, int]], open_: set[int]) -> tuple[int, int]:
+    """(size, depth) of ``node`` with aliases expanded; memoised on shared nodes.
+
+    Walks in document order, so every alias target is measured before its
+    first use and the recursion stays within the composed depth.
+    """
+    key = id(node)
+    if key in sizes:
+        return sizes[key]
+    if key in open_:
+        raise _DocumentTooLarge(
+            "an alias refers to a value that contains it", node.start_mark.line + 1
+        )
+    if isinstance(node, ScalarNode):
+        result = (1 + len(node.value), 1)
+    else:
+        open_.add(key)
+        children: list[Node] = []
+        if isinstance(node, SequenceNode):
+            children = list(node.value)
+        elif isinstance(node, MappingNode):
+            children = [part for pair in node.value for part in pair]
+        size, depth = 1, 0
+        for child in children:
+            s, d = _expanded(child, sizes, open_)
+            size, depth = size + s, max(depth, d)
+            if size > MAX_EXPANDED_SIZE:
+                raise _DocumentTooLarge(
+                    f"expands to more than {MAX_EXPANDED_SIZE:,} values and characters "
+                    "(aliases of aliases); write the values out",
+                    node.start_mark.line + 1,
+                )
+        if depth + 1 > MAX_NESTING:
+            raise _DocumentTooLarge(
+                f"lists and mappings nested deeper than {MAX_NESTING} levels (through aliases)",
+                node.start_mark.line + 1,
+            )
+        open_.discard(key)
+        result = (size, depth + 1)
+    sizes[key] = result
+    return result
+
+
+def parse_yaml(text: str, where: str) -> Any:
+    """Parse one YAML document with bounded nesting and expanded size.
+
+    Parameters
+    ----------
+    text : str
+        The document.
+    where : str
+        File name or option for the error message.
+
+    Raises
+    ------
+    OverrideError
+        ``where: line N: ...`` for invalid YAML, nesting deeper than
+        :data:`MAX_NESTING`, self-referring aliases or a document larger than
+        :data:`MAX_EXPANDED_SIZE` once aliases are expanded.
+    """
+    try:
+        loader = _BoundedLoader(text)
+    except ReaderError as exc:  # a character YAML does not allow (NUL, ...)
+        line = text[: exc.position].count("\n") + 1
+        raise OverrideError(
+            f"{where}: line {line}: character {exc.character!r} is not allowed in YAML text"
+        ) from None
+    try:
+        node = loader.get_single_node()
+        if node is None:
+            return None
+        _expanded(node, {}, set())
+        return loader.construct_document(node)
+    except _DocumentTooLarge as exc:
+        line = f"line {exc.line}: " if exc.line is not None else ""
+        raise OverrideError(f"{where}: {line}{exc.message}") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        line = f"line {mark.line + 1}: " if mark is not None else ""
+        problem = getattr(exc, "problem", None)
+        what = f" ({problem})" if problem else ""
+        raise OverrideError(f"{where}: {line}not valid YAML{what}") from None
+    finally:
+        loader.dispose()
+
+
+def read_text_file(path: str | Path) -> str:
+    """Read a scenario or study file: a regular file of UTF-8 text, at most :data:`MAX_FILE_BYTES`.
+
+    Devices (``/dev/zero``), FIFOs and directories are refused before they
+    are opened, so nothing blocks or grows without bound.
+
+    Raises
+    ------
+    OverrideError
+        Naming the file and what is accepted (with the line of a byte that
+        is not UTF-8).
+    """
+    p = Path(path)
+    try:
+        info = os.stat(p)
+    except OSError as exc:
+        raise OverrideError(f"{p}: cannot read file ({exc.strerror})") from None
+    except ValueError:  # an embedded NUL in the path
+        raise OverrideError(f"{p!s:.200}: not a usable file name") from None
+    if not stat.S_ISREG(info.st_mode):
+        kind = "a directory" if stat.S_ISDIR(info.st_mode) else "not a regular file"
+        raise OverrideError(f"{p}: {kind}; give a YAML file")
+    limit = f"accepted: at most {MAX_FILE_BYTES // (1024 * 1024)} MiB"
+    if info.st_size > MAX_FILE_BYTES:
+        raise OverrideError(f"{p}: file is {info.st_size:,} bytes; {limit}")
+    try:
+        with open(p, "rb") as handle:
+            data = handle.read(MAX_FILE_BYTES + 1)
+    except OSError as exc:
+        raise OverrideError(f"{p}: cannot read file ({exc.strerror})") from None
+    if len(data) > MAX_FILE_BYTES:
+        raise OverrideError(f"{p}: file is larger than {MAX_FILE_BYTES:,} bytes; {limit}")
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise OverrideError(
+            f"{p}: line {line}: byte 0x{data[exc.start]:02x} is not UTF-8 text; "
+            "accepted: a YAML file saved as UTF-8"
+        ) from None
+
+
+def read_yaml_file(path: str | Path) -> Any:
+    """Read and parse a YAML file, bounded as :func:`read_text_file` and :func:`parse_yaml` say."""
+    return parse_yaml(read_text_file(path), str(path))
 
 
 CHANGE_OPS = ("set", "add")
@@ -106,11 +298,13 @@ def parse_assignment(text: str) -> Change:
     path = path.strip()
     if not sep or not path:
         raise OverrideError(
-            f"--set: expected PATH=VALUE such as tunnels.main.length='24 m', got {text!r}"
+            f"--set: expected PATH=VALUE such as tunnels.main.length='24 m', got {shown(text)}"
         )
     try:
-        value = yaml.safe_load(raw) if raw.strip() else None
-    except yaml.YAMLError:
+        value = parse_yaml(raw, "--set") if raw.strip() else None
+    except OverrideError as exc:
+        if "not valid YAML" not in str(exc):
+            raise OverrideError(f"--set {path}: {str(exc).removeprefix('--set: ')}") from None
         value = raw.strip()
     return Change(path=path, value=value)
 
@@ -126,8 +320,8 @@ def _child(node: Any, segment: str, where: str) -> tuple[Any, Any]:
     """Return (container key/index, child) for ``segment`` under ``node``."""
     if isinstance(node, Mapping):
         if segment not in node:
-            known = ", ".join(sorted(map(str, node))) or "none"
-            raise OverrideError(f"{where}: no field {segment!r} here; fields present: {known}")
+            known = ", ".join(sorted(map(shown_key, node))) or "none"
+            raise OverrideError(f"{where}: no field {shown(segment)} here; fields present: {known}")
         return segment, node[segment]
     if isinstance(node, list):
         for i, item in enumerate(node):
@@ -137,8 +331,10 @@ def _child(node: Any, segment: str, where: str) -> tuple[Any, Any]:
             return int(segment), node[int(segment)]
         names = [str(it.get("name")) for it in node if isinstance(it, Mapping) and "name" in it]
         accepted = ", ".join(names) if names else f"an index 0..{len(node) - 1}"
-        raise OverrideError(f"{where}: no item named {segment!r}; accepted: {accepted}")
-    raise OverrideError(f"{where}: {segment!r} cannot be looked up inside a {type(node).__name__}")
+        raise OverrideError(f"{where}: no item named {shown(segment)}; accepted: {accepted}")
+    raise OverrideError(
+        f"{where}: {shown(segment)} cannot be looked up inside a {type(node).__name__}"
+    )
 
 
 def apply_changes(raw: Mapping[str, Any], changes: Iterable[Change]) -> dict[str, Any]:
@@ -193,35 +389,27 @@ def _append(root: dict[str, Any], change: Change) -> None:
         if not isinstance(item, Mapping):
             raise OverrideError(
                 f"{change.path}: value: with copy_of, give a mapping of the fields that "
-                f"differ (at least a new name), got {item!r}"
+                f"differ (at least a new name), got {shown(item)}"
             )
         merged = copy.deepcopy(dict(original))
         merged.update(item)
         item = merged
         if str(item.get("name")) == str(change.copy_of):
             raise OverrideError(
-                f"{change.path}: value.name: the copy of {change.copy_of!r} needs a new name"
+                f"{change.path}: value.name: the copy of {shown(change.copy_of)} needs a new name"
             )
     if isinstance(item, Mapping) and "name" in item:
         names = {str(x.get("name")) for x in node if isinstance(x, Mapping)}
         if str(item["name"]) in names:
             raise OverrideError(
-                f"{change.path}: an item named {item['name']!r} exists already; give a new name"
+                f"{change.path}: an item named {shown(item['name'])} exists already; "
+                "give a new name"
             )
     node.append(item)
 
 
 def _read_yaml(path: Path) -> dict[str, Any]:
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise OverrideError(f"{path}: cannot read file ({exc.strerror})") from None
-    try:
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        line = f" at line {mark.line + 1}" if mark is not None else ""
-        raise OverrideError(f"{path}: not valid YAML{line}") from None
+    data = read_yaml_file(path)
     if not isinstance(data, dict):
         raise OverrideError(
             f"{path}: must hold a mapping of scenario fields, got {type(data).__name__}"

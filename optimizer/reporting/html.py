@@ -913,9 +913,9 @@ def shift_timelines(result: Any, inputs: Any) -> dict[str, list[TimelineBar]]:
 
     Parameters
     ----------
-    result : optimizer.results.PlanResult
+    result : optimizer.planning.results.PlanResult
         A plan.
-    inputs : optimizer.inputs.PlanInputs
+    inputs : optimizer.planning.inputs.PlanInputs
         The inputs it was solved from (changeover minutes).
 
     Returns
@@ -1089,9 +1089,9 @@ def plan_report(
 
     Parameters
     ----------
-    result : optimizer.results.PlanResult
+    result : optimizer.planning.results.PlanResult
         The solved plan (or the diagnosis when nothing fits).
-    inputs : optimizer.inputs.PlanInputs
+    inputs : optimizer.planning.inputs.PlanInputs
         Inputs of the solve (machines, shifts, changeovers).
     tables : mapping of str to pandas.DataFrame
         The exported tables by file stem: at least the planner's
@@ -1114,7 +1114,7 @@ def plan_report(
     str
         The self-contained HTML page.
     """
-    from optimizer.results import ELASTIC_STOPPED, bottleneck
+    from optimizer.planning.results import ELASTIC_STOPPED, bottleneck
 
     unit = result.objective_unit
     status = result.status

@@ -62,6 +62,15 @@ whole table. A second build of the same scenario reads one file; changing a
 product's size, an air temperature or a rule recomputes only the cells that
 depend on it. Files are written atomically (temporary file, then rename).
 
+Computing
+---------
+The cells missing from the cache are computed together: first every missing
+cook cell, then every missing chill cell, each cell's search a solver job
+(:mod:`thermal.jobs`) whose simulations run batched with the other cells'
+(one solver call per round of the searches and per grid). A cell's value
+does not depend on which other cells are computed with it, so a full build,
+a partial recompute and a build on several workers give the same table.
+
 CAUTION: the figures are model estimates for the piece sizes entered. The
 rules come from the plant's food-safety plan and local codes; validate any
 plan with calibrated probes in the thickest pieces at the coldest spot.
@@ -69,13 +78,11 @@ plan with calibrated probes in the thickest pieces at the coldest spot.
 
 from __future__ import annotations
 
-import hashlib
-import json
 import math
 import os
 import tempfile
 import warnings
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Generator, Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -83,43 +90,38 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from optimizer.scenario import (
-    BlockGeometry,
-    ChillRuleSpec,
-    CookRuleSpec,
-    CylinderGeometry,
-    FiniteCylinderGeometry,
-    FreezeRuleSpec,
+from optimizer.dwell.cache import (
+    dwell_cache_key,
+    physics_salt,
+    read_entry,
+    write_entry,
+)
+from optimizer.dwell.convert import (
+    air_setting,
+    chill_rule,
+    cook_rule,
+    loading_factor,
+    thermal_product,
+)
+from optimizer.dwell.stages import transfer_stage, tunnel_zones
+from optimizer.scenario.models import (
     Oven,
     OvenSetting,
     Product,
     Scenario,
-    SlabGeometry,
-    SphereGeometry,
-    TransferStage,
     Tunnel,
     TunnelSetting,
 )
-from optimizer.units import minutes_to_seconds, seconds_to_minutes
+from optimizer.scenario.units import minutes_to_seconds, seconds_to_minutes
 
 __all__ = [
-    "CACHE_VERSION",
     "COLUMNS",
+    "DWELL_KEYS",
     "SolverOptions",
-    "air_setting",
     "build_dwell_table",
-    "chill_rule",
-    "cook_rule",
-    "dwell_cache_key",
-    "render_dwell_table",
-    "thermal_geometry",
-    "thermal_product",
-    "tunnel_zones",
+    "ruled_out_table",
     "write_dwell_csv",
 ]
-
-CACHE_VERSION = "corepace-dwell-1"
-"""Bumped whenever the meaning of a cached cell changes."""
 
 COLUMNS: tuple[str, ...] = (
     "product",
@@ -146,6 +148,9 @@ COLUMNS: tuple[str, ...] = (
     "notes",
 )
 """Dwell-table columns, in order."""
+
+DWELL_KEYS = ["product", "oven", "oven_setting", "tunnel", "tunnel_setting", "loading"]
+"""The columns that name a dwell-table row (one route of one product)."""
 
 Progress = Callable[..., None]
 """``progress(done, total, text)``: called after each computed cell."""
@@ -190,191 +195,6 @@ class SolverOptions:
         return {1: self.cells_1d, 2: self.cells_2d}.get(n_directions, self.cells_3d)
 
 
-# ------------------------------------------------------------------ scenario → thermal
-
-
-def thermal_geometry(geometry: Any) -> Any:
-    """The :mod:`thermal.geometry` shape of the *largest* piece of a scenario geometry.
-
-    Parameters
-    ----------
-    geometry : SlabGeometry or CylinderGeometry or SphereGeometry or
-        FiniteCylinderGeometry or BlockGeometry
-        A validated scenario geometry (dimensions in m).
-
-    Returns
-    -------
-    thermal.geometry shape
-        ``Slab``, ``InfiniteCylinder``, ``Sphere``, ``FiniteCylinder`` or ``Block``
-        with the largest-piece dimensions [m].
-    """
-    from thermal import geometry as g
-
-    d = geometry.largest_dims()
-    if isinstance(geometry, SlabGeometry):
-        return g.Slab(d["thickness"], length=d["length"], width=d["width"])
-    if isinstance(geometry, CylinderGeometry):
-        return g.InfiniteCylinder(d["radius"])
-    if isinstance(geometry, SphereGeometry):
-        return g.Sphere(d["radius"])
-    if isinstance(geometry, FiniteCylinderGeometry):
-        return g.FiniteCylinder(d["radius"], d["length"])
-    if isinstance(geometry, BlockGeometry):
-        return g.Block(d["length"], d["width"], d["height"])
-    raise TypeError(f"geometry: unknown scenario geometry {type(geometry).__name__}")
-
-
-def thermal_properties(product: Product) -> Any:
-    """Food properties of a scenario product (:mod:`thermal.foods`).
-
-    A composition gives :class:`thermal.foods.FoodProperties` (with the
-    product's freezing point when given, else estimated); explicit
-    properties give :class:`thermal.foods.ConstantProperties`.
-    """
-    from thermal import foods
-
-    if product.composition is not None:
-        c = product.composition
-        comp = foods.Composition(
-            water=c.water,
-            protein=c.protein,
-            fat=c.fat,
-            carbohydrate=c.carbohydrate,
-            fiber=c.fiber,
-            ash=c.ash,
-        )
-        return foods.FoodProperties(comp, freezing_point=product.freezing_point)
-    p = product.properties
-    assert p is not None
-    return foods.ConstantProperties(
-        p.conductivity,
-        p.density,
-        p.specific_heat,
-        freezing_point=product.freezing_point,
-        latent_heat=p.latent_heat,
-    )
-
-
-def thermal_product(product: Product, *, emissivity: float | None = None) -> Any:
-    """A :class:`thermal.product.Product` for the largest piece of ``product``.
-
-    Parameters
-    ----------
-    product : Product
-        Scenario product.
-    emissivity : float, optional
-        Surface emissivity overriding the product's [-] (an oven setting's
-        ``emissivity``).
-    """
-    from thermal.product import Product as ThermalProduct
-
-    eps = product.emissivity if emissivity is None else emissivity
-    return ThermalProduct(
-        product.name, thermal_geometry(product.geometry), thermal_properties(product), eps
-    )
-
-
-def air_setting(spec: Any) -> Any:
-    """A :class:`thermal.convection.AirSetting` from a scenario air description.
-
-    ``spec`` is an oven setting, a transfer stage or a tunnel zone: air
-    temperature [°C], air speed [m/s] or measured h [W/(m² K)], relative
-    humidity [-] or dew point [°C], and (ovens) wall temperature [°C]. With a
-    measured h the air speed is not used (0).
-    """
-    from thermal.air import humidity_ratio_from_dew_point
-    from thermal.convection import AirSetting
-
-    ratio = None
-    if spec.dew_point is not None:
-        ratio = float(humidity_ratio_from_dew_point(spec.dew_point))
-    return AirSetting(
-        temperature=spec.air_temperature,
-        speed=spec.air_speed if spec.air_speed is not None else 0.0,
-        relative_humidity=spec.relative_humidity,
-        wall_temperature=getattr(spec, "wall_temperature", None),
-        measured_h=spec.measured_h,
-        humidity_ratio=ratio,
-    )
-
-
-def cook_rule(spec: CookRuleSpec, t_initial: float, margin_k: float = 0.0) -> Any:
-    """The :class:`thermal.rules.CookRule` of a scenario cook rule.
-
-    Parameters
-    ----------
-    spec : CookRuleSpec
-        Scenario cook rule (temperatures °C, holds and D-values in min).
-    t_initial : float
-        Product temperature at loading [°C] (core target of a lethality-only rule).
-    margin_k : float
-        Kelvin added to the core target and table temperatures [K].
-    """
-    from thermal.rules import CookRule, LethalityRule, TimeTemperatureTable
-
-    lethality = None
-    if spec.lethality is not None:
-        L = spec.lethality
-        lethality = LethalityRule(
-            L.organism, minutes_to_seconds(L.d_ref), L.t_ref, L.z, L.log_reduction
-        )
-    table = None
-    if spec.core_temperature is not None:
-        target, hold = spec.core_temperature + margin_k, minutes_to_seconds(spec.hold)
-    elif spec.alternatives:
-        rows = sorted(spec.alternatives, key=lambda a: a.core_temperature)
-        table = TimeTemperatureTable(
-            spec.source,
-            tuple(a.core_temperature + margin_k for a in rows),
-            tuple(minutes_to_seconds(a.hold) for a in rows),
-        )
-        target, hold = rows[0].core_temperature + margin_k, 0.0
-    else:
-        target, hold = t_initial + 0.01, 0.0
-    return CookRule(target, hold, lethality=lethality, table=table)
-
-
-def chill_rule(spec: ChillRuleSpec | FreezeRuleSpec, margin_k: float = 0.0) -> Any:
-    """The :class:`thermal.rules.ChillRule` or ``FreezeRule`` of a scenario rule.
-
-    ``margin_k`` [K] is taken off the exit limit and every step's end
-    temperature (the start temperatures, which open the windows, stay).
-    """
-    from thermal.rules import ChillRule, CoolingStep, FreezeRule
-
-    if isinstance(spec, FreezeRuleSpec):
-        return FreezeRule(spec.core_temperature - margin_k)
-    steps = tuple(
-        CoolingStep(s.start, s.end - margin_k, minutes_to_seconds(s.within)) for s in spec.steps
-    )
-    exit_max = spec.exit_core_temperature
-    return ChillRule(steps, None if exit_max is None else exit_max - margin_k)
-
-
-def _loading_factor(option: Any) -> float:
-    from thermal.convection import DEFAULT_LOADING_FACTOR
-
-    return DEFAULT_LOADING_FACTOR if option.h_factor is None else float(option.h_factor)
-
-
-def tunnel_zones(tunnel: Tunnel, setting: TunnelSetting, loading_factor: float) -> list[Any]:
-    """The :class:`thermal.process.TunnelZone` list of a tunnel setting, in belt order."""
-    from thermal.process import TunnelZone as Zone
-
-    return [
-        Zone(air_setting(z), share, loading_factor)
-        for z, share in zip(setting.zones, tunnel.zone_fractions(setting), strict=True)
-    ]
-
-
-def _transfer(spec: TransferStage | None, minutes: float | None) -> Any:
-    from thermal.process import TransferStage as Stage
-
-    if spec is None or not minutes:
-        return None
-    return Stage(air_setting(spec), minutes_to_seconds(minutes))
-
-
 def _hold_waits(tunnel: Tunnel) -> list[float]:
     """Waits between oven and belt to check [min]: the transfer and the hot-hold limit."""
     if tunnel.transfer is None:
@@ -383,55 +203,6 @@ def _hold_waits(tunnel: Tunnel) -> list[float]:
     if tunnel.hot_hold_max is not None and tunnel.hot_hold_max > tunnel.transfer.duration:
         waits.append(tunnel.hot_hold_max)
     return waits
-
-
-# --------------------------------------------------------------------------- cache
-
-
-def _physics_salt() -> str:
-    """Hash of the source code the cached numbers depend on."""
-    root = Path(__file__).resolve().parent.parent
-    digest = hashlib.sha256(CACHE_VERSION.encode())
-    for path in [*sorted((root / "thermal").glob("*.py")), Path(__file__).resolve()]:
-        try:
-            digest.update(path.name.encode())
-            digest.update(path.read_bytes())
-        except OSError:
-            continue
-    return digest.hexdigest()
-
-
-def _canonical(data: Any) -> str:
-    return json.dumps(data, sort_keys=True, separators=(",", ":"), allow_nan=True)
-
-
-def dwell_cache_key(data: Any, salt: str) -> str:
-    """SHA-256 of the canonical JSON of ``data`` and ``salt`` (hex)."""
-    return hashlib.sha256((salt + _canonical(data)).encode()).hexdigest()
-
-
-def _read(cache: Path | None, name: str) -> Any:
-    if cache is None:
-        return None
-    path = cache / name
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None
-
-
-def _write(cache: Path | None, name: str, data: Any) -> None:
-    if cache is None:
-        return
-    cache.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{name}.", dir=cache)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, allow_nan=True)
-        os.replace(tmp, cache / name)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 # ------------------------------------------------------------------------ the cells
@@ -502,8 +273,13 @@ def _notes(caught: Iterable[warnings.WarningMessage]) -> list[str]:
 
 def _compute_cook(
     scenario: Scenario, product: Product, setting: OvenSetting, options: SolverOptions
-) -> dict[str, Any]:
-    """Compute one cook cell (no cache): the result as plain data."""
+) -> Generator[Any, Any, dict[str, Any]]:
+    """The computation of one cook cell (no cache), as a solver job.
+
+    The job (:mod:`thermal.jobs`) yields its simulations and returns the
+    cell as plain data; its ``notes`` come from the warnings the job raised
+    (added by :func:`_run_jobs`).
+    """
     from thermal import process
 
     margin = scenario.safety_margin
@@ -511,29 +287,26 @@ def _compute_cook(
         scenario.cook_rule(product), product.initial_temperature, margin.core_temperature
     )
     piece = thermal_product(product, emissivity=setting.emissivity)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            res = process.required_cook(
-                piece,
-                air_setting(setting),
-                rule,
-                product.initial_temperature,
-                margin=process.Margin(relative=margin.time_fraction),
-                max_dwell=minutes_to_seconds(options.max_dwell_min),
-                n_cells=options.cells(len(piece.geometry.directions)),
-                steps=options.steps,
-            )
-        except process.InfeasibleRuleError as exc:
-            return {
-                "feasible": False,
-                "minutes": math.nan,
-                "binding": exc.clause,
-                "reason": f"cook: {exc.reason}",
-                "method": "",
-                "heat_in_kj_per_kg": math.nan,
-                "notes": _notes(caught),
-            }
+    try:
+        res = yield from process.required_cook_job(
+            piece,
+            air_setting(setting),
+            rule,
+            product.initial_temperature,
+            margin=process.Margin(relative=margin.time_fraction),
+            max_dwell=minutes_to_seconds(options.max_dwell_min),
+            n_cells=options.cells(len(piece.geometry.directions)),
+            steps=options.steps,
+        )
+    except process.InfeasibleRuleError as exc:
+        return {
+            "feasible": False,
+            "minutes": math.nan,
+            "binding": exc.clause,
+            "reason": f"cook: {exc.reason}",
+            "method": "",
+            "heat_in_kj_per_kg": math.nan,
+        }
     profile = res.exit_profile
     return {
         "feasible": True,
@@ -548,7 +321,6 @@ def _compute_cook(
             "temperature": np.asarray(profile.temperature).tolist(),
             "density": None if profile.density is None else np.asarray(profile.density).tolist(),
         },
-        "notes": _notes(caught),
     }
 
 
@@ -560,13 +332,14 @@ def _compute_chill(
     setting: TunnelSetting,
     factor: float,
     options: SolverOptions,
-) -> dict[str, Any]:
-    """Compute one chill cell from a feasible cook cell (no cache).
+) -> Generator[Any, Any, dict[str, Any]]:
+    """The computation of one chill cell from a feasible cook cell (no cache), as a job.
 
     The residence is searched with the shortest wait before the belt (the
     transfer duration: hottest entry); when the hot-hold limit is longer, one
     more run at that residence with the longest wait checks the cooling
-    windows, which a long wait in room air can break.
+    windows, which a long wait in room air can break. Notes as for
+    :func:`_compute_cook`.
     """
     from thermal import numeric, process
 
@@ -580,56 +353,51 @@ def _compute_chill(
     )
     zones = tunnel_zones(tunnel, setting, factor)
     waits = _hold_waits(tunnel)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            res = process.required_chill(
-                piece,
-                start,
-                _transfer(tunnel.transfer, waits[0]),
-                zones,
-                rule,
-                margin=process.Margin(relative=margin.time_fraction),
-                max_residence=minutes_to_seconds(options.max_residence_min),
-                steps=options.steps,
-                tolerance=options.tolerance,
+    try:
+        res = yield from process.required_chill_job(
+            piece,
+            start,
+            transfer_stage(tunnel.transfer, waits[0]),
+            zones,
+            rule,
+            margin=process.Margin(relative=margin.time_fraction),
+            max_residence=minutes_to_seconds(options.max_residence_min),
+            steps=options.steps,
+            tolerance=options.tolerance,
+        )
+    except process.InfeasibleRuleError as exc:
+        when = f" (after a {waits[0]:g} min wait before the belt)" if waits[0] else ""
+        return _ruled_out_chill(exc.clause, f"chill: {exc.reason}{when}")
+    if len(waits) > 1:
+        hist, _ = yield from process.run_stages_job(
+            piece,
+            start,
+            None,
+            0.0,
+            transfer_stage(tunnel.transfer, waits[-1]),
+            zones,
+            res.residence,
+            steps=options.steps,
+        )
+        verdict = rule.check(hist.times, hist.core)
+        if not verdict.met:
+            return _ruled_out_chill(
+                verdict.binding,
+                f"chill: {verdict.reason} when a batch waits the full hot-hold limit "
+                f"({waits[-1]:g} min) before the belt",
             )
-        except process.InfeasibleRuleError as exc:
-            when = f" (after a {waits[0]:g} min wait before the belt)" if waits[0] else ""
-            return _ruled_out_chill(exc.clause, f"chill: {exc.reason}{when}", _notes(caught))
-        cell = {
-            "feasible": True,
-            "minutes": seconds_to_minutes(res.residence),
-            "required_minutes": seconds_to_minutes(res.required_residence),
-            "binding": res.binding,
-            "reason": "",
-            "method": res.method,
-            "heat_out_kj_per_kg": res.heat_out / 1000.0,
-        }
-        if len(waits) > 1:
-            hist, _ = process.run_stages(
-                piece,
-                start,
-                None,
-                0.0,
-                _transfer(tunnel.transfer, waits[-1]),
-                zones,
-                res.residence,
-                steps=options.steps,
-            )
-            verdict = rule.check(hist.times, hist.core)
-            if not verdict.met:
-                return _ruled_out_chill(
-                    verdict.binding,
-                    f"chill: {verdict.reason} when a batch waits the full hot-hold limit "
-                    f"({waits[-1]:g} min) before the belt",
-                    _notes(caught),
-                )
-    cell["notes"] = _notes(caught)
-    return cell
+    return {
+        "feasible": True,
+        "minutes": seconds_to_minutes(res.residence),
+        "required_minutes": seconds_to_minutes(res.required_residence),
+        "binding": res.binding,
+        "reason": "",
+        "method": res.method,
+        "heat_out_kj_per_kg": res.heat_out / 1000.0,
+    }
 
 
-def _ruled_out_chill(binding: str, reason: str, notes: list[str]) -> dict[str, Any]:
+def _ruled_out_chill(binding: str, reason: str) -> dict[str, Any]:
     return {
         "feasible": False,
         "minutes": math.nan,
@@ -637,7 +405,6 @@ def _ruled_out_chill(binding: str, reason: str, notes: list[str]) -> dict[str, A
         "reason": reason,
         "method": "numeric",
         "heat_out_kj_per_kg": math.nan,
-        "notes": notes,
     }
 
 
@@ -691,34 +458,95 @@ class _Task:
     chills: tuple[tuple[str, str, str, float], ...]  # (key, tunnel, tunnel setting, factor)
 
 
-def _run_task(
-    scenario: Scenario, task: _Task, cache: Path | None, options: SolverOptions
-) -> tuple[dict[str, Any], dict[str, dict[str, Any]], int]:
-    """Compute (or read) one task; returns (cook, {chill key: chill}, cells computed)."""
-    product = scenario.product(task.product)
-    setting = next(st for st in scenario.oven(task.oven).settings if st.name == task.setting)
-    computed = 0
-    name = f"cook-{task.cook_key}.json"
-    cook = _read(cache, name)
-    if cook is None:
-        cook = _compute_cook(scenario, product, setting, options)
-        _write(cache, name, cook)
-        computed += 1
-    chills: dict[str, dict[str, Any]] = {}
-    for key, tunnel_name, tset_name, factor in task.chills:
-        if not cook["feasible"]:
-            chills[key] = _NOT_COMPUTED
+def _run_jobs(
+    jobs: list[Generator[Any, Any, dict[str, Any]]],
+    done: Callable[[int], None],
+) -> list[dict[str, Any]]:
+    """Run cell jobs with their simulations batched; each cell gets the notes of its warnings.
+
+    ``done(i)`` is called as job ``i`` finishes. The first error that is not
+    a ruled-out rule is raised once every job has ended.
+    """
+    from thermal.jobs import run_jobs
+
+    outcomes = run_jobs(jobs, lambda i, _: done(i))
+    for outcome in outcomes:
+        if outcome.error is not None:
+            raise outcome.error
+    return [{**o.value, "notes": _notes(o.warnings)} for o in outcomes]
+
+
+def _run_tasks(
+    scenario: Scenario,
+    tasks: Sequence[_Task],
+    cache: Path | None,
+    options: SolverOptions,
+    progress: Callable[[_Task], None] | None = None,
+) -> tuple[dict[str, dict[str, Any]], dict[str, dict[str, Any]]]:
+    """Compute (or read) the cells of ``tasks``: ({cook key: cook}, {chill key: chill}).
+
+    Cells read from the cache are not recomputed; the missing cook cells run
+    as one set of batched jobs, then the missing chill cells (which start
+    from the cook cells' exit states) as another. ``progress(task)`` is
+    called once a task's cook and chill cells are all known.
+    """
+    cooks: dict[str, dict[str, Any]] = {}
+    todo: list[_Task] = []
+    for task in tasks:
+        if task.cook_key in cooks or any(t.cook_key == task.cook_key for t in todo):
             continue
-        name = f"chill-{key}.json"
-        chill = _read(cache, name)
-        if chill is None:
-            tunnel = scenario.tunnel(tunnel_name)
-            tset = next(st for st in tunnel.settings if st.name == tset_name)
-            chill = _compute_chill(scenario, product, cook, tunnel, tset, factor, options)
-            _write(cache, name, chill)
-            computed += 1
+        cook = read_entry(cache, f"cook-{task.cook_key}.json")
+        if cook is None:
+            todo.append(task)
+        else:
+            cooks[task.cook_key] = cook
+    jobs = []
+    for task in todo:
+        setting = next(st for st in scenario.oven(task.oven).settings if st.name == task.setting)
+        jobs.append(_compute_cook(scenario, scenario.product(task.product), setting, options))
+    for task, cook in zip(todo, _run_jobs(jobs, lambda i: None), strict=True):
+        write_entry(cache, f"cook-{task.cook_key}.json", cook)
+        cooks[task.cook_key] = cook
+
+    chills: dict[str, dict[str, Any]] = {}
+    missing: dict[str, tuple[_Task, str, str, float]] = {}
+    waiting = {id(task): 0 for task in tasks}
+    for task in tasks:
+        cook = cooks[task.cook_key]
+        for key, tunnel_name, tset_name, factor in task.chills:
+            if key in chills or key in missing:
+                continue
+            chill = (
+                _NOT_COMPUTED if not cook["feasible"] else read_entry(cache, f"chill-{key}.json")
+            )
+            if chill is None:
+                missing[key] = (task, tunnel_name, tset_name, factor)
+            else:
+                chills[key] = chill
+    for task in tasks:
+        waiting[id(task)] = sum(key in missing for key, *_ in task.chills)
+        if not waiting[id(task)] and progress is not None:
+            progress(task)
+    jobs = []
+    for task, tunnel_name, tset_name, factor in missing.values():
+        tunnel = scenario.tunnel(tunnel_name)
+        tset = next(st for st in tunnel.settings if st.name == tset_name)
+        product = scenario.product(task.product)
+        cook = cooks[task.cook_key]
+        jobs.append(_compute_chill(scenario, product, cook, tunnel, tset, factor, options))
+    keys = list(missing)
+
+    def chill_done(i: int) -> None:
+        for task in tasks:
+            if any(key == keys[i] for key, *_ in task.chills):
+                waiting[id(task)] -= 1
+                if not waiting[id(task)] and progress is not None:
+                    progress(task)
+
+    for key, chill in zip(keys, _run_jobs(jobs, chill_done), strict=True):
+        write_entry(cache, f"chill-{key}.json", chill)
         chills[key] = chill
-    return cook, chills, computed
+    return cooks, chills
 
 
 def _default_workers(n_tasks: int) -> int:
@@ -739,7 +567,7 @@ def build_dwell_table(
     Parameters
     ----------
     scenario : Scenario
-        A validated scenario (:func:`optimizer.scenario.load_scenario`).
+        A validated scenario (:func:`optimizer.scenario.models.load_scenario`).
     cache_dir : str or Path or None
         Directory of the on-disk cache; created when first written. ``None``
         computes everything and writes nothing.
@@ -768,7 +596,7 @@ def build_dwell_table(
     """
     options = options or SolverOptions()
     cache = None if cache_dir is None else Path(cache_dir)
-    salt = _physics_salt()
+    salt = physics_salt()
     cells = _cells(scenario)
 
     cook_keys: dict[tuple[str, str, str], str] = {}
@@ -779,7 +607,7 @@ def build_dwell_table(
         if ck not in cook_keys:
             cook_keys[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
             chills_of[ck] = {}
-        factor = _loading_factor(loading)
+        factor = loading_factor(loading)
         key = dwell_cache_key(
             _chill_inputs(scenario, product, cook_keys[ck], tunnel, tset, factor, options), salt
         )
@@ -790,29 +618,27 @@ def build_dwell_table(
         {"rows": [[*k, v] for k, v in chill_keys.items()], "belts": belts}, salt
     )
     total = len(cook_keys) + sum(len(v) for v in chills_of.values())
-    cached = _read(cache, f"table-{table_key}.json")
+    cached = read_entry(cache, f"table-{table_key}.json")
     if cached is not None:
         if progress is not None:
             progress(total, total, "read from the cache")
         return _frame(cached)
 
     tasks = [_Task(*ck, cook_keys[ck], tuple(chills_of[ck].values())) for ck in cook_keys]
-    cooks: dict[tuple[str, str, str], dict[str, Any]] = {}
+    cooks: dict[str, dict[str, Any]] = {}
     chills: dict[str, dict[str, Any]] = {}
     done = 0
 
-    def finished(task: _Task, result: tuple[dict[str, Any], dict[str, dict[str, Any]], int]):
+    def finished(task: _Task) -> None:
         nonlocal done
-        cooks[(task.product, task.oven, task.setting)] = result[0]
-        chills.update(result[1])
         done += 1 + len(task.chills)
         if progress is not None:
             progress(done, total, f"{task.product} in {task.oven}/{task.setting}")
 
     n_workers = _default_workers(len(tasks)) if workers is None else max(1, int(workers))
-    if n_workers == 1:
-        for task in tasks:
-            finished(task, _run_task(scenario, task, cache, options))
+    n_workers = min(n_workers, len(tasks))
+    if n_workers <= 1:
+        cooks, chills = _run_tasks(scenario, tasks, cache, options, finished)
     else:
         import multiprocessing
         from concurrent.futures import ProcessPoolExecutor, as_completed
@@ -821,19 +647,27 @@ def build_dwell_table(
         # fork does not re-run the caller's main script as spawn would
         methods = multiprocessing.get_all_start_methods()
         context = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+        # a fixed share of the tasks per worker; a cell's value does not depend on the
+        # other cells batched with it, so neither the split nor the timing matters
+        shares = [tasks[i::n_workers] for i in range(n_workers)]
         with ProcessPoolExecutor(max_workers=n_workers, mp_context=context) as pool:
             futures = {
-                pool.submit(_run_task, scenario, task, cache, options): task for task in tasks
+                pool.submit(_run_tasks, scenario, share, cache, options): share for share in shares
             }
             for future in as_completed(futures):
-                finished(futures[future], future.result())
+                part_cooks, part_chills = future.result()
+                cooks.update(part_cooks)
+                chills.update(part_chills)
+                for task in futures[future]:
+                    finished(task)
 
     rows = []
     for product, oven, oset, tunnel, tset, loading in cells:
         ck = (product.name, oven.name, oset.name)
         chill = chills[chill_keys[(*ck, tunnel.name, tset.name, loading.name)]]
-        rows.append(_row(product, oven, oset, tunnel, tset, loading, cooks[ck], chill))
-    _write(cache, f"table-{table_key}.json", rows)
+        cook = cooks[cook_keys[ck]]
+        rows.append(_row(product, oven, oset, tunnel, tset, loading, cook, chill))
+    write_entry(cache, f"table-{table_key}.json", rows)
     return _frame(rows)
 
 
@@ -884,66 +718,6 @@ def _frame(rows: Sequence[dict[str, Any]]) -> pd.DataFrame:
     return frame
 
 
-# ---------------------------------------------------------------------- rendering
-
-
-def render_dwell_table(table: pd.DataFrame, *, title: str = "Dwell table") -> Any:
-    """The dwell table as a :class:`rich.table.Table` for the terminal.
-
-    One line per row: the keys, cook and chill minutes with the method and the
-    binding clause, the fastest belt speed, and for ruled-out rows the
-    reason. Ruled-out rows are dimmed.
-
-    Parameters
-    ----------
-    table : pandas.DataFrame
-        A dwell table (:func:`build_dwell_table`).
-    title : str
-        Title printed above the table.
-    """
-    from rich.table import Table
-
-    out = Table(title=title, title_justify="left", header_style="bold")
-    for label, justify in (
-        ("product", "left"),
-        ("oven / setting", "left"),
-        ("tunnel / setting / loading", "left"),
-        ("cook min", "right"),
-        ("chill min", "right"),
-        ("belt ≤ m/min", "right"),
-        ("binds / why not", "left"),
-    ):
-        out.add_column(label, justify=justify, overflow="fold")
-
-    def minutes(value: float, method: str) -> str:
-        if not math.isfinite(value):
-            return "—"
-        return f"{value:.1f}" + (f" ({method[0]})" if method else "")
-
-    for r in table.itertuples(index=False):
-        if r.feasible:
-            status = f"cook: {r.cook_binding}; chill: {r.chill_binding}"
-        else:
-            status = r.reason
-        out.add_row(
-            r.product,
-            f"{r.oven} / {r.oven_setting}",
-            f"{r.tunnel} / {r.tunnel_setting} / {r.loading}",
-            minutes(r.cook_min, r.cook_method),
-            minutes(r.chill_min, r.chill_method),
-            "—"
-            if not math.isfinite(r.max_belt_speed_m_per_min)
-            else f"{r.max_belt_speed_m_per_min:.2f}",
-            status,
-            style=None if r.feasible else "dim",
-        )
-    out.caption = (
-        "(s) exact series, (n) finite volumes; largest piece, safety margin included. "
-        "Model estimates: validate with probes against the plant's food-safety plan."
-    )
-    return out
-
-
 def write_dwell_csv(table: pd.DataFrame, path: str | Path) -> Path:
     """Write the dwell table as CSV (UTF-8, header row), atomically.
 
@@ -969,3 +743,12 @@ def write_dwell_csv(table: pd.DataFrame, path: str | Path) -> Path:
         Path(tmp).unlink(missing_ok=True)
         raise
     return path
+
+
+def ruled_out_table(dwell: pd.DataFrame, products: Sequence[str]) -> pd.DataFrame:
+    """Dwell-table rows of the planned products that the physics rules out, with the reason."""
+    columns = [*DWELL_KEYS, "reason"]
+    if dwell.empty or "feasible" not in dwell.columns:
+        return pd.DataFrame(columns=columns)
+    mask = ~dwell["feasible"].astype(bool) & dwell["product"].isin(list(products))
+    return dwell.loc[mask, columns].reset_index(drop=True)

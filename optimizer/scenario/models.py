@@ -5,7 +5,7 @@ their air settings, its cooling tunnels (zones, loading options, which ovens
 feed them), the products (shape and size of the nominal and the largest
 piece, composition or measured properties, cook and chill rules), the shifts
 of the planning horizon and the orders. :func:`load_scenario` reads it,
-converts every dimensional value once (see :mod:`optimizer.units` for the
+converts every dimensional value once (see :mod:`optimizer.scenario.units` for the
 unit of plain numbers in each kind of field) and checks everything before
 anything is computed or written. All problems are reported together, one
 line each, naming the field path and what is accepted::
@@ -15,10 +15,10 @@ line each, naming the field path and what is accepted::
 
 Units inside a validated :class:`Scenario`: temperatures °C, times minutes,
 lengths m, air speeds m/s, belt speeds m/min, masses kg, h W/(m² K),
-fractions 0..1 (see :mod:`optimizer.units`).
+fractions 0..1 (see :mod:`optimizer.scenario.units`).
 
 Rules come from a small library of named rule sets shipped in
-``optimizer/data/rules.yaml`` (each with its published source; examples to be
+``optimizer/scenario/data/rules.yaml`` (each with its published source; examples to be
 checked against the plant's food-safety plan and local codes), from a
 ``rules:`` section of the scenario, or inline in a product.
 """
@@ -30,7 +30,7 @@ import math
 import re
 import types
 import typing
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from functools import lru_cache
 from importlib import resources
 from pathlib import Path
@@ -52,7 +52,8 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
-from optimizer.units import KINDS, UnitParseError, parse_quantity
+from optimizer.scenario.overrides import Change, OverrideError, load_raw
+from optimizer.scenario.units import KINDS, UnitParseError, parse_quantity
 
 __all__ = [
     "BlockGeometry",
@@ -68,6 +69,7 @@ __all__ = [
     "Order",
     "Oven",
     "OvenSetting",
+    "PhysicsCheck",
     "Product",
     "SafetyMargin",
     "Scenario",
@@ -603,13 +605,17 @@ ChillRuleRef = Annotated[
 
 @lru_cache(maxsize=1)
 def _builtin_rules_raw() -> dict[str, Any]:
-    text = resources.files("optimizer").joinpath("data/rules.yaml").read_text(encoding="utf-8")
+    text = (
+        resources.files("optimizer.scenario")
+        .joinpath("data/rules.yaml")
+        .read_text(encoding="utf-8")
+    )
     data = yaml.safe_load(text)
     return dict(data["rules"])
 
 
 def builtin_rules() -> dict[str, CookRuleSpec | ChillRuleSpec | FreezeRuleSpec]:
-    """The named rule sets shipped in ``optimizer/data/rules.yaml``.
+    """The named rule sets shipped in ``optimizer/scenario/data/rules.yaml``.
 
     These are examples with their published sources; check them against the
     plant's food-safety plan and local codes before use.
@@ -1084,6 +1090,18 @@ _ANY = "\x00any"  # marks a section that failed as a whole: skip reference check
 
 # ------------------------------------------------------------------ cross-field checks
 
+PhysicsCheck = Callable[
+    [Sequence[tuple[int, "Oven"]], Sequence[tuple[int, "Tunnel"]], Sequence[tuple[int, "Product"]]],
+    list[str],
+]
+"""``physics(ovens, tunnels, products)``: problems only the physics can judge.
+
+Each argument lists the items that validated with their index in the file;
+each problem is one line ``field.path: what is wrong``. The scenario layer
+knows no physics: the dwell layer supplies this check
+(:func:`optimizer.dwell.checks.physics_problems`).
+"""
+
 
 def _quote_list(names: Iterable[str]) -> str:
     names = list(names)
@@ -1096,11 +1114,13 @@ def _cross_field_problems(
     objective: Objective | None,
     raw_names: Mapping[str, set[str]],
     margin: float = 0.0,
+    physics: PhysicsCheck | None = None,
 ) -> list[str]:
     """Checks that span several fields. ``parts`` holds the items that validated.
 
     ``raw_names`` holds names of items that failed validation, so they do not
-    also show up as "unknown" references.
+    also show up as "unknown" references. ``physics`` adds the problems only
+    the physics can judge (see :data:`PhysicsCheck`).
     """
     out: list[str] = []
     ovens = parts.get("ovens", [])
@@ -1191,7 +1211,8 @@ def _cross_field_problems(
                         f"warmer than zones[{j - 1}] ({_fmt(before)} °C) — zone air must not get "
                         f"warmer along the tunnel, got {_fmt(here)} °C"
                     )
-    out.extend(_physics_problems(ovens, tunnels, products))
+    if physics is not None:
+        out.extend(physics(ovens, tunnels, products))
 
     # products: rules
     library = {**builtin_rules(), **rules}
@@ -1287,60 +1308,6 @@ def _cross_field_problems(
         fields_set = [(i, p) for i, p in products if "value_per_kg" not in p.model_fields_set]
         for i, _ in fields_set:
             out.append(f"products[{i}].value_per_kg: required when objective.kind is most_value")
-    return out
-
-
-_PHYSICS_FIELDS = {
-    "temperature": "air_temperature",
-    "speed": "air_speed",
-    "humidity_ratio": "dew_point",
-    "relative_humidity": "relative_humidity",
-    "wall_temperature": "wall_temperature",
-    "measured_h": "measured_h",
-}
-
-
-def _physics_problems(
-    ovens: list[tuple[int, Oven]],
-    tunnels: list[tuple[int, Tunnel]],
-    products: list[tuple[int, Product]],
-) -> list[str]:
-    """Ask the physics layer to accept every air setting and material, with field paths.
-
-    Catches what only the physics can judge, e.g. a relative humidity that
-    air above 100 °C cannot hold at atmospheric pressure.
-    """
-    from optimizer.dwell import air_setting, thermal_properties
-    from thermal.errors import ThermalInputError
-
-    out: list[str] = []
-
-    def air(path: str, spec: Any) -> None:
-        try:
-            air_setting(spec)
-        except ThermalInputError as exc:
-            msg = str(exc)
-            head, sep, tail = msg.partition(": ")
-            if sep and head in _PHYSICS_FIELDS:
-                out.append(f"{path}.{_PHYSICS_FIELDS[head]}: {tail}")
-            else:
-                out.append(f"{path}: {msg}")
-
-    for i, o in ovens:
-        for k, st in enumerate(o.settings):
-            air(f"ovens[{i}].settings[{k}]", st)
-    for i, t in tunnels:
-        if t.transfer is not None:
-            air(f"tunnels[{i}].transfer", t.transfer)
-        for k, st in enumerate(t.settings):
-            for j, z in enumerate(st.zones):
-                air(f"tunnels[{i}].settings[{k}].zones[{j}]", z)
-    for i, p in products:
-        try:
-            thermal_properties(p)
-        except ThermalInputError as exc:
-            part = "composition" if p.composition is not None else "properties"
-            out.append(f"products[{i}].{part}: {exc}")
     return out
 
 
@@ -1516,7 +1483,9 @@ def _raw_name(item: Any) -> str | None:
     return None
 
 
-def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
+def scenario_from_dict(
+    data: Any, source: str | None = None, *, physics: PhysicsCheck | None = None
+) -> Scenario:
     """Validate a raw scenario mapping (as read from YAML) into a :class:`Scenario`.
 
     Every section and list item is validated separately so that all problems
@@ -1528,6 +1497,10 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         Raw scenario, values with or without units.
     source : str, optional
         Where ``data`` came from, for the error message.
+    physics : PhysicsCheck, optional
+        Checks only the physics can judge, run with the cross-field checks
+        (:func:`optimizer.dwell.checks.physics_problems`; the dwell layer's
+        :func:`optimizer.dwell.checks.load_checked_scenario` passes it).
 
     Raises
     ------
@@ -1613,7 +1586,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         if key in data and not isinstance(data[key], str):
             problems.append(f"{key}: expected text, got {data[key]!r}")
 
-    problems.extend(_cross_field_problems(parts, rules, objective, raw_names, margin))
+    problems.extend(_cross_field_problems(parts, rules, objective, raw_names, margin, physics))
     if problems:
         raise ScenarioError(problems, source)
     try:
@@ -1622,18 +1595,22 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         raise ScenarioError(_errors_of(Scenario, exc), source) from None
 
 
-def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
+def load_scenario(
+    path: str | Path, changes: Iterable[Change] = (), *, physics: PhysicsCheck | None = None
+) -> Scenario:
     """Read and validate a scenario file.
 
-    ``extends`` chains and ``changes`` (see :mod:`optimizer.overrides`) are
+    ``extends`` chains and ``changes`` (see :mod:`optimizer.scenario.overrides`) are
     resolved first; then every value is converted and checked.
 
     Parameters
     ----------
     path : str or Path
         Scenario YAML file.
-    changes : iterable of optimizer.overrides.Change
+    changes : iterable of optimizer.scenario.overrides.Change
         Dotted-path changes applied after the file (``--set``).
+    physics : PhysicsCheck, optional
+        Checks only the physics can judge (see :func:`scenario_from_dict`).
 
     Returns
     -------
@@ -1645,13 +1622,11 @@ def load_scenario(path: str | Path, changes: Iterable[Any] = ()) -> Scenario:
     ScenarioError
         All problems at once, one line each; nothing has been computed or written.
     """
-    from optimizer.overrides import OverrideError, load_raw
-
     try:
         raw = load_raw(path, changes)
     except OverrideError as exc:
         raise ScenarioError([str(exc)], str(path)) from None
-    return scenario_from_dict(raw, str(path))
+    return scenario_from_dict(raw, str(path), physics=physics)
 
 
 def scenario_to_dict(scenario: Scenario) -> dict[str, Any]:
@@ -1672,7 +1647,9 @@ def _name_first(node: Any) -> Any:
 
 
 def dump_scenario(scenario: Scenario, path: str | Path) -> None:
-    """Write ``scenario`` as YAML (numbers in documented units; see :mod:`optimizer.units`).
+    """Write ``scenario`` as YAML (numbers in documented units).
+
+    See :mod:`optimizer.scenario.units` for the unit of each kind of field.
 
     Parameters
     ----------

@@ -24,7 +24,7 @@ from multiprocessing import get_context
 from pathlib import Path
 from typing import Any
 
-from optimizer.overrides import Change
+from optimizer.scenario.overrides import Change
 
 PointFunc = Callable[["SweepPoint"], dict[str, Any]]
 

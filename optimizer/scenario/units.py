@@ -42,6 +42,7 @@ from __future__ import annotations
 
 import math
 import re
+import reprlib
 from dataclasses import dataclass
 from functools import lru_cache
 from typing import Any
@@ -142,10 +143,42 @@ def _registry() -> pint.UnitRegistry:
     return ureg
 
 
+MAX_QUANTITY_CHARS = 200
+"""Longest text read as a number with a unit [characters]."""
+
+ECHO_CHARS = 60
+"""About how many characters of a given value an error message repeats."""
+
+_ECHO = reprlib.Repr()
+_ECHO.maxstring = ECHO_CHARS
+_ECHO.maxother = ECHO_CHARS
+_ECHO.maxlong = 24
+_ECHO.maxlevel = 3
+_ECHO.maxlist = _ECHO.maxtuple = _ECHO.maxdict = _ECHO.maxset = 4
+
+
+def shown(value: Any) -> str:
+    """A value as an error message repeats it: its repr, cut to about :data:`ECHO_CHARS`.
+
+    Deep or long values are elided (``[[[...]]]``, ``'abc...xyz'``), so a
+    message never carries more than a few dozen characters of what was given.
+    """
+    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 256:
+        return f"an integer of about {int(value.bit_length() * 0.30103)} digits"
+    text = _ECHO.repr(value)
+    return text if len(text) <= 2 * ECHO_CHARS else text[: 2 * ECHO_CHARS - 3] + "..."
+
+
+def shown_key(key: Any) -> str:
+    """A mapping key as a field path repeats it: its text, cut to about :data:`ECHO_CHARS`."""
+    text = str(key)
+    return text if len(text) <= ECHO_CHARS else text[: ECHO_CHARS - 3] + "..."
+
+
 def _accepted(field: str, kind: UnitKind, given: Any) -> UnitParseError:
     return UnitParseError(
         f"{field}: expected {kind.noun} like '{kind.example}' or a number in {kind.label}, "
-        f"got {given!r}"
+        f"got {shown(given)}"
     )
 
 
@@ -181,11 +214,16 @@ def parse_quantity(value: Any, kind: str, field: str = "value") -> float:
     if isinstance(value, bool):
         raise _accepted(field, spec, value)
     if isinstance(value, int | float):
-        number = float(value)
+        try:
+            number = float(value)
+        except OverflowError:  # an integer beyond the float range
+            raise _accepted(field, spec, value) from None
         if not math.isfinite(number):
             raise _accepted(field, spec, value)
         return number
     if not isinstance(value, str):
+        raise _accepted(field, spec, value)
+    if len(value) > MAX_QUANTITY_CHARS:  # no unit is that long; spare the unit parser
         raise _accepted(field, spec, value)
     match = _NUMBER_AND_UNIT.match(value)
     if match is None:

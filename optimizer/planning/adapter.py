@@ -1,8 +1,8 @@
 """From a validated scenario and its dwell table to the planner's inputs.
 
 :func:`plan_inputs` is the only place that knows both the scenario models
-(:mod:`optimizer.scenario`) and the planner's plain dataclasses
-(:mod:`optimizer.inputs`). Units pass through unchanged: the scenario already
+(:mod:`optimizer.scenario.models`) and the planner's plain dataclasses
+(:mod:`optimizer.planning.inputs`). Units pass through unchanged: the scenario already
 holds minutes [min], kilograms [kg], metres [m] and belt speeds [m/min].
 
 Mapping choices (documented here because the two sides differ slightly):
@@ -25,7 +25,7 @@ import math
 
 import pandas as pd
 
-from optimizer.inputs import (
+from optimizer.planning.inputs import (
     LoadingOption,
     Objective,
     OrderData,
@@ -35,7 +35,7 @@ from optimizer.inputs import (
     ShiftData,
     TunnelData,
 )
-from optimizer.scenario import Scenario
+from optimizer.scenario.models import Scenario
 
 __all__ = ["plan_inputs"]
 
@@ -68,20 +68,20 @@ def plan_inputs(scenario: Scenario, dwell: pd.DataFrame) -> PlanInputs:
     Parameters
     ----------
     scenario : Scenario
-        A validated scenario (:func:`optimizer.scenario.load_scenario`).
+        A validated scenario (:func:`optimizer.scenario.models.load_scenario`).
     dwell : pandas.DataFrame
         The dwell table of the same scenario
-        (:func:`optimizer.dwell.build_dwell_table`).
+        (:func:`optimizer.dwell.table.build_dwell_table`).
 
     Returns
     -------
-    optimizer.inputs.PlanInputs
+    optimizer.planning.inputs.PlanInputs
         Ovens, tunnels, products, shifts (in file order), orders, the dwell
         table and the objective; minutes [min], kg, m and m/min throughout.
 
     Raises
     ------
-    optimizer.inputs.PlanInputError
+    optimizer.planning.inputs.PlanInputError
         If the planner's own checks refuse something (for example a dwell
         table missing a column).
     """

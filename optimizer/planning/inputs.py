@@ -3,7 +3,7 @@
 Everything the planner needs is in one :class:`PlanInputs` object: the ovens,
 the tunnels (with their belt loading options), the products, the shifts, the
 orders, the dwell table (one pandas DataFrame, columns as agreed in the
-interface contract) and the objective. The adapter in ``optimizer.adapter``
+interface contract) and the objective. The adapter in ``optimizer.planning.adapter``
 builds it from a validated scenario; tests build it by hand.
 
 Units used by the planner (not SI seconds: shift planning is done in the

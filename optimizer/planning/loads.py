@@ -55,7 +55,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from optimizer.inputs import Objective, PlanInputs
+from optimizer.planning.inputs import Objective, PlanInputs
 
 _KEY_SEP = "|"
 

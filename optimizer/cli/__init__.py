@@ -1,0 +1,5 @@
+"""The ``corepace`` command."""
+
+from optimizer.cli.app import main
+
+__all__ = ["main"]

@@ -1,0 +1,1 @@
+"""Reporting layer: HTML documents, figures and CSV/XLSX/JSON exports."""

@@ -1,0 +1,1 @@
+"""Studies layer: what-if study specs, their execution (pool, Dask), finance, tables."""
