@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from optimizer.schedule import (
+from optimizer.planning.schedule import (
     SCHEDULE_COLUMNS,
     BeltPiece,
     Changeover,
