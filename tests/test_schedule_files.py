@@ -239,7 +239,8 @@ def test_schedule_csv_sheet_and_json_carry_the_same_rows(tmp_path):
     assert kinds == ["batch", "batch", "belt", "belt", "changeover", "feed", "feed", "feed", "stop"]
     sheet = openpyxl.load_workbook(tmp_path / "plan.xlsx")["schedule"]
     values = list(sheet.values)
-    assert tuple(values[0]) == SCHEDULE_COLUMNS
+    assert tuple(values[0]) == tuple(export.header_text(c) for c in SCHEDULE_COLUMNS)
+    assert values[0][3] == "start [min]" and values[0][12] == "belt speed [m/min]"
     assert len(values) == len(rows)
     data = json.loads(json.dumps(schedule_json(schedule)))
     assert tuple(data["columns"]) == SCHEDULE_COLUMNS

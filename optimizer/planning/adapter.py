@@ -143,4 +143,5 @@ def plan_inputs(scenario: Scenario, dwell: pd.DataFrame) -> PlanInputs:
         dwell=dwell,
         objective=_OBJECTIVES[scenario.objective.kind],
         fixed_output_kg=scenario.objective.fixed_output,
+        currency=scenario.currency,
     )

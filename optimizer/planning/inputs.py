@@ -455,6 +455,9 @@ class PlanInputs:
     fixed_output_kg : float or None
         Total output [kg] the LEAST_ENERGY objective must reach; ``None`` =
         the order minimums.
+    currency : str
+        Currency of the products' value per kg (the unit of a MOST_VALUE
+        objective, e.g. ``"EUR"``).
     """
 
     ovens: tuple[OvenData, ...]
@@ -465,6 +468,7 @@ class PlanInputs:
     dwell: pd.DataFrame
     objective: Objective = Objective.MOST_KG
     fixed_output_kg: float | None = None
+    currency: str = "value"
 
     def __post_init__(self) -> None:
         for name in ("ovens", "tunnels", "products", "shifts", "orders"):

@@ -19,7 +19,7 @@ from enum import Enum
 
 import pandas as pd
 
-from optimizer.planning.inputs import Objective
+from optimizer.planning.inputs import Objective, PlanInputs
 
 CAUTION = (
     "Caution: dwell times and belt speeds are model estimates for the largest piece "
@@ -37,6 +37,26 @@ OBJECTIVE_UNITS = {
     Objective.SOONEST: "weighted completion shift",
     Objective.LEAST_ENERGY: "kJ",
 }
+
+
+def objective_unit(objective: Objective, currency: str = "value") -> str:
+    """Unit of an objective's value: the scenario's currency for the most value.
+
+    Parameters
+    ----------
+    objective : Objective
+        The objective.
+    currency : str
+        Currency of the products' value per kg (e.g. ``"EUR"``).
+
+    Returns
+    -------
+    str
+        ``kg``, the currency, ``weighted completion shift`` or ``kJ``.
+    """
+    if objective is Objective.MOST_VALUE:
+        return currency
+    return OBJECTIVE_UNITS[objective]
 
 
 class SolveStatus(Enum):
@@ -425,13 +445,73 @@ def tunnel_table(result: PlanResult) -> pd.DataFrame:
     return pd.DataFrame(data, columns=cols)
 
 
-def totals_table(result: PlanResult) -> pd.DataFrame:
-    """kg per product (rows) and shift (columns) with a ``total`` column [kg]."""
-    df = tunnel_table(result)
-    if df.empty:
-        return pd.DataFrame(columns=[*result.shifts, "total"])
-    t = df.pivot_table(index="product", columns="shift", values="kg", aggfunc="sum", fill_value=0)
+TOTALS_COLUMNS = ("product", "shift", "kg", "note")
+"""Columns of :func:`kg_table` (one row per product and shift)."""
+
+
+def _not_planned(result: PlanResult, inputs: PlanInputs | None) -> dict[str, str]:
+    """Products with no kg in the plan, and why in words."""
+    planned = {r.product for r in result.runs if r.kg > 0}
+    why: dict[str, str] = {}
+    for product, reasons in result.excluded.items():
+        if product not in planned:
+            why[product] = "not made: cannot be made on this plant (" + "; ".join(reasons) + ")"
+    if inputs is None or not result.status.has_plan:
+        return why
+    wanted = {}
+    for o in inputs.orders:
+        wanted[o.product] = wanted.get(o.product, 0.0) + o.min_kg
+    bn = bottleneck(result)
+    where = f" on the bottleneck {bn.kind} {bn.machine}" if bn is not None else ""
+    for product in (p.name for p in inputs.products):
+        if product in planned or product in why or product not in wanted:
+            continue
+        if wanted[product] <= 0:
+            why[product] = (
+                "not made: no minimum order, and the machine time"
+                f"{where} earns more {result.objective_unit} on the other products"
+            )
+    return why
+
+
+def kg_table(result: PlanResult, inputs: PlanInputs | None = None) -> pd.DataFrame:
+    """kg per product and shift in long form: one row per product and shift [kg].
+
+    Products of ``inputs`` (or excluded from the plan) that get no kg are
+    listed too, with 0 kg and a note saying why.
+
+    Parameters
+    ----------
+    result : PlanResult
+        The plan.
+    inputs : PlanInputs or None
+        The planner's inputs, for the products and orders.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns :data:`TOTALS_COLUMNS`, sorted by product then shift order.
+    """
+    kg: dict[tuple[str, str], float] = {}
+    for r in result.runs:
+        kg[(r.product, r.shift)] = kg.get((r.product, r.shift), 0.0) + r.kg
+    why = _not_planned(result, inputs)
+    products = sorted({p for p, _ in kg} | set(why))
+    rows = [(p, s, kg.get((p, s), 0.0), why.get(p)) for p in products for s in result.shifts]
+    return pd.DataFrame(rows, columns=list(TOTALS_COLUMNS))
+
+
+def totals_table(result: PlanResult, inputs: PlanInputs | None = None) -> pd.DataFrame:
+    """kg per product (rows, index ``product``) and shift (columns), with ``total`` [kg].
+
+    The wide view of :func:`kg_table` (a spreadsheet sheet, the terminal).
+    """
+    long = kg_table(result, inputs)
+    if long.empty:
+        return pd.DataFrame(columns=["product", *result.shifts, "total"]).set_index("product")
+    t = long.pivot_table(index="product", columns="shift", values="kg", aggfunc="sum")
     t = t.reindex(columns=list(result.shifts), fill_value=0.0)
+    t.columns.name = None
     t["total"] = t.sum(axis=1)
     return t
 
@@ -506,12 +586,12 @@ def bottleneck(result: PlanResult) -> Bottleneck | None:
     )
 
 
-def plan_tables(result: PlanResult) -> dict[str, pd.DataFrame]:
-    """All plan tables by name (for CSV/XLSX export)."""
+def plan_tables(result: PlanResult, inputs: PlanInputs | None = None) -> dict[str, pd.DataFrame]:
+    """All plan tables by name (for CSV/XLSX export); every one in long form."""
     return {
         "ovens": oven_table(result),
         "tunnels": tunnel_table(result),
-        "totals": totals_table(result).reset_index(),
+        "totals": kg_table(result, inputs),
         "utilisation": utilisation_table(result),
         "shadow_prices": shadow_price_table(result),
         "slack": slack_table(result),

@@ -57,7 +57,6 @@ from optimizer.planning.loads import (
 from optimizer.planning.model import PlanModel, build_model
 from optimizer.planning.results import (
     ELASTIC_STOPPED,
-    OBJECTIVE_UNITS,
     BatchContent,
     ConstraintSlack,
     MachineUse,
@@ -67,6 +66,7 @@ from optimizer.planning.results import (
     Shortfall,
     SolveStatus,
     TunnelRun,
+    objective_unit,
 )
 
 MAX_PRICING_ROUNDS = 12
@@ -1306,7 +1306,7 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
         build_s = cand_s + b2
     mixed = sorted({ld for ld in model.loads.values() if ld.is_mixed}, key=lambda ld: ld.key)
 
-    unit = OBJECTIVE_UNITS[inputs.objective]
+    unit = objective_unit(inputs.objective, inputs.currency)
     maximise = inputs.objective in (Objective.MOST_KG, Objective.MOST_VALUE)
     common = dict(
         objective=inputs.objective,

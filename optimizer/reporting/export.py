@@ -45,8 +45,10 @@ __all__ = [
     "OutputError",
     "atomic_write_bytes",
     "atomic_write_text",
+    "display_format",
     "excel_sheet_names",
     "formula_like",
+    "header_text",
     "prepare_out_dir",
     "table_records",
     "to_jsonable",
@@ -401,6 +403,76 @@ def excel_sheet_names(names: Iterable[str]) -> list[str]:
     return result
 
 
+# Column-name endings that carry a unit, longest first: "cook_min" -> "cook [min]".
+_UNIT_ENDINGS = (
+    ("_m_per_min", "m/min"),
+    ("_kj_per_kg", "kJ/kg"),
+    ("_kg_per_h", "kg/h"),
+    ("_kg_per_week", "kg/week"),
+    ("_per_kg", "per kg"),
+    ("_per_week", "per week"),
+    ("_per_h", "per h"),
+    ("_kwh", "kWh"),
+    ("_min", "min"),
+    ("_kg", "kg"),
+    ("_h", "h"),
+    ("_s", "s"),
+    ("_m", "m"),
+)
+PERCENT_COLUMNS = frozenset({"utilisation", "gap", "share"})
+"""Columns holding fractions [-], shown as percentages in workbooks (value kept)."""
+
+
+def header_text(column: Any) -> str:
+    """A column's workbook header: words, and the unit in brackets.
+
+    ``cook_min`` → ``cook [min]``, ``belt_speed_m_per_min`` → ``belt speed
+    [m/min]``, ``utilisation`` → ``utilisation [%]``; names without a unit
+    ending just lose their underscores (``oven_setting`` → ``oven setting``).
+    """
+    name = str(column)
+    if name in PERCENT_COLUMNS:
+        return f"{name} [%]"
+    for ending, unit in _UNIT_ENDINGS:
+        if name.endswith(ending) and len(name) > len(ending):
+            return f"{name[: -len(ending)].replace('_', ' ')} [{unit}]"
+    return name.replace("_", " ")
+
+
+def display_format(column: str, values: pd.Series) -> str | None:
+    """Excel number format for a numeric column (None: leave as it is).
+
+    Fractions in :data:`PERCENT_COLUMNS` show as percentages; floats get a
+    thousands separator and the decimals their size needs (none for whole
+    numbers and values of 1000 and more, one from 10, two from 0.1, four
+    below); the cell keeps the full value.
+    """
+    if pd.api.types.is_bool_dtype(values) or not pd.api.types.is_numeric_dtype(values):
+        return None
+    if column in PERCENT_COLUMNS:
+        return "0.0%"
+    if pd.api.types.is_integer_dtype(values):
+        return "#,##0"
+    finite = values[np.isfinite(values.astype(float))].astype(float)
+    if finite.empty or np.allclose(finite, np.round(finite)):
+        return "#,##0"
+    peak = float(np.max(np.abs(finite)))
+    decimals = 0 if peak >= 1000 else 1 if peak >= 10 else 2 if peak >= 0.1 else 4
+    return "#,##0" + ("." + "0" * decimals if decimals else "")
+
+
+def _shown_width(value: Any, fmt: str | None) -> int:
+    if fmt and isinstance(value, int | float | np.integer | np.floating):
+        number = float(value)
+        if not math.isfinite(number):
+            return 3
+        if fmt.endswith("%"):
+            return len(f"{100 * number:.1f}%")
+        decimals = len(fmt.partition(".")[2])
+        return len(f"{number:,.{decimals}f}")
+    return len(str(value))
+
+
 def write_xlsx(
     path: str | os.PathLike[str],
     tables: Mapping[str, pd.DataFrame],
@@ -408,6 +480,11 @@ def write_xlsx(
     protect: Iterable[str | os.PathLike[str]] | None = None,
 ) -> Path:
     """Write several tables into one XLSX workbook, one sheet each, atomically.
+
+    Each sheet has a frozen header row whose headers name the unit
+    (:func:`header_text`), display formats on numeric columns
+    (:func:`display_format`; the cells keep full precision) and column
+    widths fitted to the shown text.
 
     Parameters
     ----------
@@ -437,14 +514,22 @@ def write_xlsx(
             pd.DataFrame().to_excel(writer, sheet_name="empty", index=False)
         for sheet, table in zip(sheets, tables.values(), strict=True):
             frame = table.reset_index() if _has_named_index(table) else table
-            frame.to_excel(writer, sheet_name=sheet, index=False)
+            names = [str(c) for c in frame.columns]
+            shown = frame.set_axis([header_text(c) for c in names], axis=1)
+            shown.to_excel(writer, sheet_name=sheet, index=False)
             worksheet = writer.sheets[sheet]
             _as_text(worksheet)
             worksheet.freeze_panes = "A2"
-            for idx, column in enumerate(frame.columns, start=1):
-                values = [str(column), *(str(v) for v in frame[column].head(200))]
-                width = min(max(len(v) for v in values) + 2, 48)
-                worksheet.column_dimensions[_excel_column(idx)].width = width
+            for idx, (name, column) in enumerate(zip(names, frame.columns, strict=True), 1):
+                fmt = display_format(name, frame[column])
+                letter = _excel_column(idx)
+                if fmt is not None:
+                    for (cell,) in worksheet.iter_rows(min_row=2, min_col=idx, max_col=idx):
+                        if isinstance(cell.value, int | float) and not isinstance(cell.value, bool):
+                            cell.number_format = fmt
+                widths = [len(header_text(name))]
+                widths += [_shown_width(v, fmt) for v in frame[column].head(200)]
+                worksheet.column_dimensions[letter].width = min(max(widths) + 2, 48)
     return atomic_write_bytes(path, buffer.getvalue(), protect=protect)
 
 
@@ -471,6 +556,7 @@ def write_tables(
     *,
     workbook: str,
     protect: Iterable[str | os.PathLike[str]] | None = None,
+    extra_sheets: Mapping[str, pd.DataFrame] | None = None,
 ) -> list[Path]:
     """Write every table as ``<name>.csv`` and all of them into one workbook.
 
@@ -484,6 +570,9 @@ def write_tables(
         File name of the XLSX workbook holding every table (one sheet each).
     protect : iterable of path-like, optional
         Paths that must never be written.
+    extra_sheets : mapping of str to pandas.DataFrame, optional
+        Sheets only in the workbook, after the tables (a wide view of a
+        long table, for reading).
 
     Returns
     -------
@@ -496,5 +585,6 @@ def write_tables(
         if Path(name).name != name or name in ("", ".", ".."):
             raise OutputError(f"table name {name!r}: must be a plain file name")
         written.append(write_csv(out / f"{name}.csv", table, protect=protect))
-    written.append(write_xlsx(out / workbook, tables, protect=protect))
+    sheets = {**tables, **(extra_sheets or {})}
+    written.append(write_xlsx(out / workbook, sheets, protect=protect))
     return written

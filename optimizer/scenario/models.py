@@ -147,7 +147,10 @@ def _quantity(
         failed = [(bound, op) for bound, ok, op in checks if bound is not None and not ok]
         if not failed:
             return x
-        if kind == "fraction":
+        if kind == "fraction" and le is None and lt is None:
+            msg = f"must be >= {_fmt(ge if ge is not None else 0)} (or a percentage like '10 %'), "
+            msg += f"got {value!r}"
+        elif kind == "fraction":
             low = f"[{_fmt(ge)}" if ge is not None else f"({_fmt(gt if gt is not None else 0)}"
             high = f"{_fmt(le)}]" if le is not None else f"{_fmt(lt if lt is not None else 1)})"
             msg = f"must be in {low}, {high} (or a percentage like '65 %'), got {value!r}"
@@ -206,6 +209,8 @@ Density = _quantity("density", gt=0.0)
 SpecificHeat = _quantity("specific_heat", gt=0.0)
 SpecificEnergy = _quantity("specific_energy", ge=0.0)
 Fraction = _quantity("fraction", ge=0.0, le=1.0)
+Share = _quantity("fraction", ge=0.0)
+"""A non-negative ratio that may pass 1 (``0.1``, ``'10 %'``, ``'150 %'``)."""
 
 
 def _plain_number(*, gt: float | None = None, ge: float | None = None) -> Any:
@@ -997,8 +1002,9 @@ class Objective(_Model):
 class SafetyMargin(_Model):
     """Margins added on top of what the physics says is just enough."""
 
-    time_fraction: _plain_number(ge=0.0) = Field(
-        0.10, description="Fraction added to every cook and chill time [-] (0.1 = +10 %)."
+    time_fraction: Share = Field(
+        0.10,
+        description="Fraction added to every cook and chill time [-] (0.1 or '10 %' = +10 %).",
     )
     core_temperature: TemperatureDifference = Field(
         0.0,
@@ -1682,4 +1688,61 @@ def scenario_json_schema() -> dict[str, Any]:
         "A plant scenario for corepace. Numbers are in each field's documented unit; strings "
         "with units ('72 degC', '45 min', '2.5 m/s') are converted on loading.",
     )
+    defs = schema["$defs"]
+    # `objective: most_value` is the short form of `objective: {kind: most_value}`
+    objective = defs["Objective"]
+    defs["Objective"] = {
+        "description": objective.get("description", ""),
+        "anyOf": [
+            {
+                "type": "string",
+                "enum": objective["properties"]["kind"]["enum"],
+                "description": "The objective's kind alone.",
+            },
+            objective,
+        ],
+    }
+    # a file that extends another needs none of the sections: they come from its base
+    props = schema["properties"]
+    props["extends"] = {
+        "type": "string",
+        "minLength": 1,
+        "description": "Scenario file this one starts from (path relative to this file); "
+        "sections given here replace the base's, then `changes` apply.",
+    }
+    props["changes"] = {
+        "type": "array",
+        "description": "Changes applied to the base scenario, in order (needs `extends`).",
+        "items": {
+            "oneOf": [
+                {
+                    "type": "object",
+                    "properties": {
+                        "set": {
+                            "type": "string",
+                            "description": "Dotted path, e.g. 'tunnels.chill-tunnel.length'.",
+                        },
+                        "value": {"description": "New value, with units as in the file."},
+                    },
+                    "required": ["set", "value"],
+                    "additionalProperties": False,
+                },
+                {
+                    "type": "object",
+                    "properties": {
+                        "add": {"type": "string", "description": "Dotted path of a list."},
+                        "copy_of": {"type": "string", "description": "Item to copy, by name."},
+                        "value": {"description": "The item, or the fields that differ."},
+                    },
+                    "required": ["add"],
+                    "anyOf": [{"required": ["value"]}, {"required": ["copy_of"]}],
+                    "additionalProperties": False,
+                },
+            ]
+        },
+    }
+    required = schema.pop("required", [])
+    schema["if"] = {"required": ["extends"]}
+    schema["else"] = {"required": required}
+    schema["dependentRequired"] = {"changes": ["extends"]}
     return schema

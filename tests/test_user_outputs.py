@@ -1,0 +1,226 @@
+"""Issue 17's defects, each with the check that failed before its fix.
+
+What a new user ran into when trying the outputs: money not in the
+scenario's currency, notes only on stderr, percentages refused, stray
+columns, raw codes on screens. Each test names the defect it guards.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+import yaml
+
+from optimizer.scenario.models import ScenarioError, load_scenario
+
+CONFIGS = Path(__file__).resolve().parent.parent / "configs"
+
+
+def _demo_with(tmp_path: Path, **top) -> Path:
+    data = yaml.safe_load((CONFIGS / "demo.yaml").read_text(encoding="utf-8"))
+    data.update(top)
+    path = tmp_path / "demo-changed.yaml"
+    path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
+    return path
+
+
+# -- defect 3: fractions accept percentages, as the README says ------------------
+
+
+@pytest.mark.parametrize(("given", "expected"), [("10 %", 0.10), (0.10, 0.10), ("150 %", 1.5)])
+def test_safety_margin_time_fraction_takes_a_percentage(tmp_path, given, expected):
+    path = _demo_with(tmp_path, safety_margin={"time_fraction": given, "core_temperature": "0.5 K"})
+    assert load_scenario(path).safety_margin.time_fraction == pytest.approx(expected)
+
+
+def test_a_negative_time_fraction_is_refused_naming_the_field(tmp_path):
+    path = _demo_with(tmp_path, safety_margin={"time_fraction": "-5 %"})
+    with pytest.raises(ScenarioError) as err:
+        load_scenario(path)
+    text = str(err.value)
+    assert "safety_margin.time_fraction" in text
+    assert "percentage like '10 %'" in text
+
+
+# -- defect 1: money in the scenario's currency -------------------------------------
+
+
+def test_most_value_plan_is_in_the_scenario_currency():
+    import dataclasses
+
+    from optimizer.planning.inputs import Objective, SolveOptions
+    from optimizer.planning.solve import plan
+    from tests._planner_cases import one_line
+
+    inputs = dataclasses.replace(one_line(objective=Objective.MOST_VALUE), currency="EUR")
+    result = plan(inputs, SolveOptions(time_limit_s=20))
+    assert result.objective_unit == "EUR"
+    kg = plan(one_line(objective=Objective.MOST_KG), SolveOptions(time_limit_s=20))
+    assert kg.objective_unit == "kg"
+
+
+def test_the_scenario_currency_reaches_the_planner_inputs():
+    import pandas as pd
+
+    from optimizer.planning.adapter import plan_inputs
+    from optimizer.planning.inputs import DWELL_COLUMNS
+
+    scenario = load_scenario(CONFIGS / "demo.yaml")
+    assert scenario.currency == "EUR"
+    inputs = plan_inputs(scenario, pd.DataFrame(columns=list(DWELL_COLUMNS)))
+    assert inputs.currency == "EUR"
+
+
+# -- defect 12: spreadsheets people can read ------------------------------------------
+
+
+def test_workbook_sheets_have_units_formats_frozen_headers_and_widths(tmp_path):
+    import openpyxl
+    import pandas as pd
+
+    from optimizer.reporting import export
+
+    table = pd.DataFrame(
+        {
+            "product": ["chicken-fillet", "ham-log"],
+            "cook_min": [25.856829780708765, 101.5],
+            "belt_speed_m_per_min": [0.14687621904509623, 0.2],
+            "kg": [975.1439457764636, 1500.0],
+            "batches": [3, 12],
+            "utilisation": [0.9731, 1.0],
+        }
+    )
+    path = export.write_xlsx(tmp_path / "t.xlsx", {"t": table})
+    ws = openpyxl.load_workbook(path)["t"]
+    headers = [c.value for c in ws[1]]
+    assert headers == [
+        "product",
+        "cook [min]",
+        "belt speed [m/min]",
+        "kg",
+        "batches",
+        "utilisation [%]",
+    ]
+    assert ws.freeze_panes == "A2"
+    row = {h: c for h, c in zip(headers, ws[2], strict=True)}
+    # full values kept (openpyxl writes 16 significant digits; Excel shows 15), shown rounded
+    assert row["cook [min]"].value == pytest.approx(25.856829780708765, rel=1e-15)
+    assert row["cook [min]"].number_format == "#,##0.0"
+    assert row["belt speed [m/min]"].number_format == "#,##0.00"
+    assert row["kg"].number_format == "#,##0"  # 1000 kg and more: whole kg
+    assert row["batches"].number_format == "#,##0"
+    assert row["utilisation [%]"].number_format == "0.0%" and row["utilisation [%]"].value == 0.9731
+    # widths fit the shown text, not 18-character raw floats
+    width = ws.column_dimensions["B"].width
+    assert len("cook [min]") + 2 <= width < 18
+
+
+def test_totals_are_long_form_with_unplanned_products_shown(tmp_path):
+    from optimizer.planning.inputs import Objective, OrderData, SolveOptions
+    from optimizer.planning.results import kg_table, plan_tables, totals_table
+    from optimizer.planning.solve import plan
+    from tests._planner_cases import one_line
+
+    # B is worth nothing, optional: the plan leaves it out; A fills the shift
+    inputs = one_line(
+        products={
+            "A": (10.0, 50.0, 1.0, {"value_per_kg": 5.0}),
+            "B": (10.0, 50.0, 1.0, {"value_per_kg": 0.0}),
+        },
+        orders=[OrderData("A"), OrderData("B")],
+        n_shifts=2,
+        objective=Objective.MOST_VALUE,
+    )
+    result = plan(inputs, SolveOptions(time_limit_s=20))
+    long = kg_table(result, inputs)
+    assert list(long.columns) == ["product", "shift", "kg", "note"]
+    assert len(long) == 4  # 2 products × 2 shifts, one observation per row
+    b = long[long["product"] == "B"]
+    assert (b["kg"] == 0).all()
+    assert b["note"].iloc[0].startswith("not made: no minimum order")
+    assert "index" not in plan_tables(result, inputs)["totals"].columns
+    wide = totals_table(result, inputs)
+    assert wide.loc["B", "total"] == 0 and wide.loc["A", "total"] == pytest.approx(result.total_kg)
+
+
+# -- defect 6: no stray "index" column in the tables of a run without a plan ---------
+
+
+def test_tables_of_a_run_without_a_plan_have_no_index_column():
+    from optimizer.planning.inputs import Objective
+    from optimizer.planning.results import PlanResult, SolveStatus, plan_tables
+
+    result = PlanResult(
+        SolveStatus.NO_SOLUTION_IN_TIME,
+        Objective.MOST_VALUE,
+        None,
+        "EUR",
+        None,
+        None,
+        "highs",
+        0.1,
+        0.5,
+        0.0,
+        ("mon", "tue"),
+    )
+    for name, table in plan_tables(result).items():
+        assert "index" not in [str(c) for c in table.columns], name
+        assert table.empty, name
+
+
+# -- defect 7: the schema accepts valid files, ships with the package ----------------
+
+
+def _validator():
+    import jsonschema  # reference validator (tests only)
+
+    from optimizer.scenario.models import scenario_json_schema
+
+    schema = scenario_json_schema()
+    jsonschema.Draft202012Validator.check_schema(schema)
+    return jsonschema.Draft202012Validator(schema)
+
+
+@pytest.mark.parametrize("name", ["demo.yaml", "large.yaml"])
+def test_shipped_scenarios_pass_the_schema_and_name_it_in_a_modeline(name):
+    path = CONFIGS / name
+    errors = [e.message for e in _validator().iter_errors(yaml.safe_load(path.read_text()))]
+    assert errors == []
+    first = path.read_text(encoding="utf-8").splitlines()[0]
+    assert first.startswith("# yaml-language-server: $schema=")
+    target = (path.parent / first.split("$schema=", 1)[1]).resolve()
+    assert target.is_file(), target
+
+
+def test_an_extending_file_passes_the_schema_and_a_partial_base_does_not(tmp_path):
+    v = _validator()
+    child = {
+        "extends": "demo.yaml",
+        "changes": [
+            {"set": "tunnels.chill-tunnel.length", "value": "30 m"},
+            {"add": "ovens", "copy_of": "rack-oven-1", "value": {"name": "rack-oven-3"}},
+            {"add": "tunnels.chill-tunnel.fed_by", "value": "rack-oven-3"},
+        ],
+        "objective": "most_kg",
+    }
+    assert [e.message for e in v.iter_errors(child)] == []
+    # it also loads, so the schema and the loader agree on it
+    path = tmp_path / "child.yaml"
+    path.write_text(yaml.safe_dump({**child, "extends": str(CONFIGS / "demo.yaml")}))
+    assert load_scenario(path).tunnel("chill-tunnel").length == 30.0
+    # without extends the sections are required, and changes need extends
+    errors = [e.message for e in v.iter_errors({"changes": child["changes"]})]
+    assert "'ovens' is a required property" in errors
+    assert "'extends' is a dependency of 'changes'" in errors
+
+
+def test_the_shipped_schema_file_is_the_current_schema():
+    import json
+
+    from optimizer.scenario.models import scenario_json_schema
+
+    shipped = Path(__file__).resolve().parents[1] / "optimizer/scenario/data/scenario.schema.json"
+    assert json.loads(shipped.read_text(encoding="utf-8")) == json.loads(
+        json.dumps(scenario_json_schema())
+    ), "run `corepace schema --out optimizer/scenario/data`"
