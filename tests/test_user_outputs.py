@@ -11,6 +11,8 @@ from pathlib import Path
 
 import pytest
 import yaml
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from optimizer.scenario.models import ScenarioError, load_scenario
 
@@ -224,3 +226,101 @@ def test_the_shipped_schema_file_is_the_current_schema():
     assert json.loads(shipped.read_text(encoding="utf-8")) == json.loads(
         json.dumps(scenario_json_schema())
     ), "run `corepace schema --out optimizer/scenario/data`"
+
+
+# -- defect 10: plot labels never collide ------------------------------------------------
+
+
+def _ham_log_like(rule_labels=None, stage_cuts=(55.0, 63.0, 148.0), t_end=275.0):
+    """A history shaped like the demo's ham log: long chill windows, a short transfer."""
+    import numpy as np
+
+    from optimizer.reporting.html import CurveSet, RuleMark, Stage
+
+    t = np.linspace(0.0, t_end, 400)
+    core = 4 + 93 * np.exp(-(((t - 76) / 45) ** 2))
+    surface = 4 + 140 * np.exp(-(((t - 55) / 30) ** 2))
+    cuts = [0.0, *stage_cuts, t_end]
+    names = ["oven", "transfer", "zone 1", "zone 2", "zone 3"]
+    stages = [
+        Stage(names[i], cuts[i], cuts[i + 1], (180, 18, -4, -8, -8)[i])
+        for i in range(len(cuts) - 1)
+    ]
+    labels = rule_labels or [
+        "core ≤ 26.7 °C within 90 min of 54.4 °C",
+        "core ≤ 4.4 °C within 300 min of 26.7 °C",
+        "cook: core ≥ 63 °C (lowest of 4 options)",
+    ]
+    marks = [
+        RuleMark(labels[0], 26.7, 130.0, 220.0, 178.0),
+        RuleMark(labels[1 % len(labels)], 4.4, 180.0, 478.0, 255.0),
+        RuleMark(labels[2 % len(labels)], 63.0, None, None, 15.0),
+    ]
+    return CurveSet(
+        "ham-log — rack-oven-1/roast-180 → chill-tunnel/chill-minus-8/full",
+        t,
+        core,
+        surface,
+        stages,
+        marks,
+        (core + surface) / 2,
+    )
+
+
+def test_temperature_plot_labels_clear_of_each_other_and_of_the_curves():
+    from optimizer.reporting.html import temperature_figure, text_collisions
+
+    assert text_collisions(temperature_figure(_ham_log_like())) == []
+
+
+@settings(max_examples=12, deadline=None)
+@given(
+    cuts=st.lists(st.floats(min_value=1.0, max_value=270.0), min_size=3, max_size=3, unique=True),
+    words=st.lists(st.integers(min_value=1, max_value=14), min_size=3, max_size=3),
+)
+def test_temperature_plot_labels_clear_for_any_stage_split_and_rule_text(cuts, words):
+    from optimizer.reporting.html import temperature_figure, text_collisions
+
+    labels = [" ".join(["core ≤ 21 °C"] * n) for n in words]
+    fig = temperature_figure(_ham_log_like(labels, tuple(sorted(cuts))))
+    assert text_collisions(fig) == []
+
+
+def test_the_collision_check_sees_labels_across_curves_and_on_each_other():
+    import numpy as np
+    from matplotlib.figure import Figure
+
+    from optimizer.reporting.html import text_collisions
+
+    fig = Figure(figsize=(4, 3))
+    ax = fig.add_subplot(1, 1, 1)
+    x = np.linspace(0, 10, 50)
+    ax.plot(x, x, label="core")
+    ax.text(5, 5, "across the core", ha="center")
+    ax.text(1, 8, "first label")
+    ax.text(1.2, 8.05, "second label")
+    found = text_collisions(fig)
+    assert any("'across the core' crosses the line 'core'" in f for f in found)
+    assert any("'first label' overlaps 'second label'" in f for f in found)
+
+
+def test_timeline_and_utilisation_plot_labels_do_not_collide():
+    import pandas as pd
+
+    from optimizer.reporting.html import text_collisions, timeline_figure, utilisation_figure
+    from optimizer.reporting.schedule_files import schedule_timelines
+    from tests.test_schedule_files import _plant
+
+    bars = schedule_timelines(_plant())["mon"]
+    fig = timeline_figure(
+        bars, title="Machine timeline, mon", shift_minutes=240, machines=["oven-1", "tun"]
+    )
+    assert text_collisions(fig) == []
+    util = pd.DataFrame(
+        {
+            "machine": ["rack-oven-1", "rack-oven-1", "chill-tunnel", "chill-tunnel"],
+            "shift": ["mon", "tue", "mon", "tue"],
+            "utilisation": [0.97, 1.0, 1.0, 0.4],
+        }
+    )
+    assert text_collisions(utilisation_figure(util)) == []

@@ -29,7 +29,9 @@ from __future__ import annotations
 import base64
 import html
 import io
+import itertools
 import math
+import textwrap
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -377,15 +379,22 @@ class CurveSet:
     mean: Sequence[float] | None = None
 
 
+RULE_STYLES = ("--", "-.", (0, (6, 2, 1, 2, 1, 2)), (0, (1, 1.2)), (0, (8, 3)))
+"""Line styles of the rules on a temperature plot, one per rule (the legend tells them apart)."""
+
+
 def temperature_figure(curves: CurveSet) -> Figure:
     """Core and surface temperature against time, with stages and rules drawn.
 
-    Stages are separated by thin vertical lines and named at the top (names
-    of short stages are turned upright); each stage's air temperature is a
-    dotted line. Each rule is a dashed line at its target over its window,
-    with a dot where the core reaches the target; a window that ends within
-    the plotted time gets a vertical dotted line, and one that ends far
-    beyond it is named in its label instead of stretching the time axis.
+    Stages are separated by thin vertical lines and named in a band above
+    the plot; a stage too short for its name gets its number there and is
+    named in the line under the plot. Each stage's air temperature is a
+    dotted line. Each rule is a line at its target over its window, in its
+    own line style, with a dot where the core reaches the target; a window
+    that ends within the plotted time gets a vertical dotted line, and one
+    that ends far beyond it is named in its label instead of stretching the
+    time axis. Rule texts sit in a legend under the plot, never across the
+    curves.
 
     Parameters
     ----------
@@ -397,7 +406,9 @@ def temperature_figure(curves: CurveSet) -> Figure:
     matplotlib.figure.Figure
         The plot (not yet rendered).
     """
-    fig = Figure(figsize=(7.4, 3.8))
+    from matplotlib.lines import Line2D
+
+    fig = Figure(figsize=(7.4, 4.2 + 0.22 * len(curves.rules)), layout="constrained")
     ax = fig.add_subplot(1, 1, 1)
     _style_axes(ax)
     t = np.asarray(curves.time_min, dtype=float)
@@ -437,7 +448,9 @@ def temperature_figure(curves: CurveSet) -> Figure:
             zorder=3,
         )
     ax.plot(t, core, color=CORE_COLOUR, linewidth=2.2, label="core", zorder=4)
-    for rule in curves.rules:
+    rule_handles = []
+    for k, rule in enumerate(curves.rules):
+        style = RULE_STYLES[k % len(RULE_STYLES)]
         x0 = rule.start if rule.start is not None else t0
         inside = rule.deadline is not None and rule.deadline <= t_end
         x1 = rule.deadline if inside else t_end
@@ -445,8 +458,8 @@ def temperature_figure(curves: CurveSet) -> Figure:
             [x0, x1],
             [rule.temperature] * 2,
             color=RULE_COLOUR,
-            linewidth=1.2,
-            linestyle="--",
+            linewidth=1.3,
+            linestyle=style,
             zorder=2,
         )
         label = rule.label
@@ -458,53 +471,158 @@ def temperature_figure(curves: CurveSet) -> Figure:
             ax.plot(
                 [rule.met_at], [rule.temperature], marker="o", color=RULE_COLOUR, ms=4, zorder=5
             )
-        ax.annotate(
-            label,
-            xy=(x0, rule.temperature),
-            xytext=(3, 3),
-            textcoords="offset points",
-            ha="left",
-            va="bottom",
-            fontsize=7.5,
-            color=RULE_COLOUR,
-            zorder=6,
+        rule_handles.append(
+            Line2D(
+                [],
+                [],
+                color=RULE_COLOUR,
+                linewidth=1.3,
+                linestyle=style,
+                label=textwrap.fill(label, 95),
+            )
         )
     ax.set_xlim(t0, t_end)
-    low, high = ax.get_ylim()
-    span = max(t_end - t0, 1e-9)
-    for stage in curves.stages:
-        width = min(stage.end, t_end) - max(stage.start, t0)
-        if width <= 0:
-            continue
-        if width > 0.09 * span:
-            ax.text(
-                (stage.start + min(stage.end, t_end)) / 2,
-                high,
-                stage.name,
-                ha="center",
-                va="bottom",
-                fontsize=7.5,
-                color=MUTED,
-                clip_on=False,
-            )
-        else:
-            ax.text(
-                (stage.start + stage.end) / 2,
-                high - 0.02 * (high - low),
-                stage.name,
-                ha="center",
-                va="top",
-                rotation=90,
-                fontsize=7.5,
-                color=MUTED,
-            )
-    ax.set_ylim(low, high)
     ax.set_xlabel("time from oven loading [min]", fontsize=9, color=INK)
     ax.set_ylabel("temperature [°C]", fontsize=9, color=INK)
-    ax.set_title(curves.title, fontsize=10, color=INK, loc="left", pad=16)
+    ax.set_title(curves.title, fontsize=10, color=INK, loc="left", pad=18)
     ax.legend(fontsize=8, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
-    fig.tight_layout()
+    unnamed = _stage_names(fig, ax, curves.stages, t0, t_end)
+    if rule_handles:
+        fig.legend(
+            handles=rule_handles,
+            loc="outside lower left",
+            fontsize=7.5,
+            frameon=False,
+            title=("stages: " + ", ".join(unnamed) + "; " if unnamed else "") + "rules:",
+            title_fontsize=7.5,
+            alignment="left",
+        )
+    elif unnamed:
+        fig.text(0.01, 0.005, "stages: " + ", ".join(unnamed), fontsize=7.5, color=MUTED)
     return fig
+
+
+def _stage_names(fig: Figure, ax: Any, stages: Sequence[Stage], t0: float, t1: float) -> list[str]:
+    """Name each stage above the plot where its name fits, else its number.
+
+    Returns the ``"<number> <name>"`` texts of the stages shown by number.
+    """
+    renderer = _renderer(fig)
+    x_px = ax.transData.transform([[t0, 0.0], [t1, 0.0]])[:, 0]
+    px_per_min = (x_px[1] - x_px[0]) / max(t1 - t0, 1e-9)
+    unnamed = []
+    for i, stage in enumerate(stages, start=1):
+        lo, hi = max(stage.start, t0), min(stage.end, t1)
+        if hi <= lo:
+            continue
+        room = (hi - lo) * px_per_min
+        text = ax.annotate(
+            stage.name,
+            xy=((lo + hi) / 2, 1.0),
+            xycoords=("data", "axes fraction"),
+            xytext=(0, 2),
+            textcoords="offset points",
+            ha="center",
+            va="bottom",
+            fontsize=7.5,
+            color=MUTED,
+            annotation_clip=False,
+        )
+        if text.get_window_extent(renderer).width > room - 2:
+            text.set_text(str(i))
+            unnamed.append(f"{i} {stage.name}")
+            if text.get_window_extent(renderer).width > room:
+                text.set_visible(False)
+    return unnamed
+
+
+def _renderer(fig: Figure) -> Any:
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    fig.set_dpi(FIGURE_DPI)
+    canvas.draw()
+    return canvas.get_renderer()
+
+
+def text_collisions(fig: Figure) -> list[str]:
+    """Labels of a figure that overlap each other or cross a drawn curve.
+
+    Every visible text (titles, axis and tick labels, legends, annotations)
+    is measured as drawn at :data:`FIGURE_DPI`; two whose boxes overlap by
+    more than a pixel are reported, and so is a text inside a plot's axes
+    that a data line (two or more points) passes through.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure.
+
+    Returns
+    -------
+    list of str
+        One line per collision, empty when the labels are clear.
+    """
+    from matplotlib.text import Text
+
+    renderer = _renderer(fig)
+    boxes = []
+    for ax in fig.axes:
+        for axis, (lo, hi) in ((ax.xaxis, ax.get_xlim()), (ax.yaxis, ax.get_ylim())):
+            low, high = min(lo, hi), max(lo, hi)
+            for tick in axis.get_major_ticks():
+                label = tick.label1
+                if tick.get_loc() is None or not low - 1e-9 <= tick.get_loc() <= high + 1e-9:
+                    continue
+                if label.get_visible() and label.get_text().strip():
+                    boxes.append((label, label.get_window_extent(renderer)))
+    ticks = {id(t) for t, _ in boxes}
+    for text in fig.findobj(Text):
+        if id(text) in ticks or not text.get_visible() or not text.get_text().strip():
+            continue
+        if text.axes is not None and text in (
+            *text.axes.xaxis.get_ticklabels(which="both"),
+            *text.axes.yaxis.get_ticklabels(which="both"),
+        ):
+            continue
+        boxes.append((text, text.get_window_extent(renderer)))
+    out = []
+    for i, (a, box_a) in enumerate(boxes):
+        for b, box_b in boxes[i + 1 :]:
+            w = min(box_a.x1, box_b.x1) - max(box_a.x0, box_b.x0)
+            h = min(box_a.y1, box_b.y1) - max(box_a.y0, box_b.y0)
+            if w > 1.0 and h > 1.0:
+                out.append(f"{a.get_text()!r} overlaps {b.get_text()!r}")
+    for ax in fig.axes:
+        inside = [(t, bx) for t, bx in boxes if t.axes is ax and id(t) not in ticks]
+        inside = [(t, bx) for t, bx in inside if ax.bbox.overlaps(bx)]
+        for line in ax.get_lines():
+            xy = np.asarray(line.get_xydata(), dtype=float)
+            if len(xy) < 2 or line.get_linestyle() in ("None", "none", " ", ""):
+                continue
+            pts = line.get_transform().transform(xy)
+            dense = _densify(pts)
+            for t, bx in inside:
+                hit = (
+                    (dense[:, 0] > bx.x0)
+                    & (dense[:, 0] < bx.x1)
+                    & (dense[:, 1] > bx.y0)
+                    & (dense[:, 1] < bx.y1)
+                )
+                if hit.any():
+                    out.append(f"{t.get_text()!r} crosses the line {line.get_label()!r}")
+    return out
+
+
+def _densify(points: np.ndarray, step: float = 1.0) -> np.ndarray:
+    """Points along a polyline, at most ``step`` pixels apart."""
+    out = [points[:1]]
+    for a, b in itertools.pairwise(points):
+        if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
+            continue
+        n = max(int(np.hypot(*(b - a)) / step), 1)
+        out.append(a + (b - a) * np.linspace(0, 1, n + 1)[1:, None])
+    return np.concatenate(out)
 
 
 @dataclass(frozen=True)
