@@ -20,6 +20,7 @@ the values of the exported CSV files, and that every plot is a real PNG.
 from __future__ import annotations
 
 import hashlib
+import html
 import io
 import json
 import math
@@ -32,7 +33,8 @@ import pandas as pd
 import pytest
 import yaml
 
-from optimizer.cli.app import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
+from optimizer.cli.app import main
+from optimizer.cli.common import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK
 from tests._png import DRAWN_MIN, coloured_share, png_of_data_uri
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -279,7 +281,7 @@ def test_plan_demo_report_carries_caution_hash_and_version(demo_plan, plant):
     _, out, _ = demo_plan
     text = (out / "report.html").read_text(encoding="utf-8")
     assert sha256(plant) in text
-    from optimizer.cli.app import tool_version
+    from optimizer.scenario.provenance import tool_version
 
     assert tool_version() in text
     for phrase in (
@@ -612,7 +614,7 @@ def terminal_env(monkeypatch):
     ],
 )
 def test_progress_bar_only_on_a_terminal(tty, options, shown, monkeypatch, terminal_env):
-    from optimizer.cli.app import Ui
+    from optimizer.cli.terminal import Ui
 
     stream = Terminal() if tty else io.StringIO()
     monkeypatch.setattr(sys, "stdout", stream)
@@ -771,3 +773,19 @@ def test_out_of_range_warnings_become_one_note_per_kind():
         )
         warnings.warn("other", UserWarning, stacklevel=1)  # not ours: shown as usual
     assert counts == {"Whitaker sphere: mu/mu_s outside [1, 3.2]": 2}
+
+
+def test_correlation_out_of_range_reaches_report_json_and_dwell_used(demo_plan):
+    """Issue 17, defect 2: the extrapolation note is in all three files, per cell."""
+    _, out, _ = demo_plan
+    used = pd.read_csv(out / "dwell_used.csv")
+    spheres = used[used["product"] == "beef-meatball"]
+    assert len(spheres) and spheres["notes"].str.contains("Whitaker sphere").all()
+    # folded: one note per correlation and cell, with the range of the ratio
+    assert spheres["notes"].str.count("Whitaker sphere").max() == 1
+    data = json.loads((out / "plan.json").read_text())
+    lines = [m for m in data["messages"] if m.startswith("dwell beef-meatball at ")]
+    assert len(lines) == len(spheres) and all("extrapolated" in m for m in lines)
+    text = (out / "report.html").read_text(encoding="utf-8")
+    for line in lines:
+        assert html.escape(line) in text

@@ -149,11 +149,11 @@ def test_totals_are_long_form_with_unplanned_products_shown(tmp_path):
 # -- defect 6: no stray "index" column in the tables of a run without a plan ---------
 
 
-def test_tables_of_a_run_without_a_plan_have_no_index_column():
+def _timed_out():
     from optimizer.planning.inputs import Objective
-    from optimizer.planning.results import PlanResult, SolveStatus, plan_tables
+    from optimizer.planning.results import PlanResult, SolveStatus
 
-    result = PlanResult(
+    return PlanResult(
         SolveStatus.NO_SOLUTION_IN_TIME,
         Objective.MOST_VALUE,
         None,
@@ -166,6 +166,20 @@ def test_tables_of_a_run_without_a_plan_have_no_index_column():
         0.0,
         ("mon", "tue"),
     )
+
+
+def _report_of(result) -> str:
+    from optimizer.planning.results import plan_tables
+    from optimizer.reporting.html import RunInfo, plan_report
+
+    info = RunInfo("s.yaml", "0" * 64, "0.1", "2026-01-01 00:00", "Test plant")
+    return plan_report(result, None, plan_tables(result), info=info)
+
+
+def test_tables_of_a_run_without_a_plan_have_no_index_column():
+    from optimizer.planning.results import plan_tables
+
+    result = _timed_out()
     for name, table in plan_tables(result).items():
         assert "index" not in [str(c) for c in table.columns], name
         assert table.empty, name
@@ -235,7 +249,7 @@ def _ham_log_like(rule_labels=None, stage_cuts=(55.0, 63.0, 148.0), t_end=275.0)
     """A history shaped like the demo's ham log: long chill windows, a short transfer."""
     import numpy as np
 
-    from optimizer.reporting.html import CurveSet, RuleMark, Stage
+    from optimizer.dwell.histories import CurveSet, RuleMark, Stage
 
     t = np.linspace(0.0, t_end, 400)
     core = 4 + 93 * np.exp(-(((t - 76) / 45) ** 2))
@@ -324,3 +338,48 @@ def test_timeline_and_utilisation_plot_labels_do_not_collide():
         }
     )
     assert text_collisions(utilisation_figure(util)) == []
+
+
+# -- defect 2: physics notes folded per cell ---------------------------------------------
+
+
+def test_notes_of_a_cell_are_folded_into_one_per_kind():
+    from optimizer.planning.run import summarise_notes
+
+    text = (
+        "Whitaker sphere: mu/mu_s = 0.903 outside the validity range [1, 3.2]; result "
+        "extrapolated; Whitaker sphere: mu/mu_s = 0.8707 outside the validity range [1, 3.2]; "
+        "result extrapolated; surface_temperature 55.98 °C is below the dew point 60 °C"
+    )
+    # the "; " inside a note splits it; the fold keeps every distinct text once
+    folded = summarise_notes(
+        "Whitaker sphere: mu/mu_s = 0.903 outside the validity range [1, 3.2]; "
+        "Whitaker sphere: mu/mu_s = 0.8707 outside the validity range [1, 3.2]; "
+        "surface_temperature 55.98 °C is below the dew point 60 °C"
+    )
+    assert folded == (
+        "Whitaker sphere: mu/mu_s = 0.8707–0.903 outside the validity range [1, 3.2]; "
+        "surface_temperature 55.98 °C is below the dew point 60 °C"
+    )
+    assert summarise_notes(text).count("result extrapolated") == 1
+    assert summarise_notes(None) == "" and summarise_notes("") == ""
+
+    page = _report_of(result)
+    assert 'data-column="index"' not in page
+
+
+# -- defect 5: a time limit hit before any plan is not "infeasible" -------------------
+
+
+def test_time_limit_before_any_plan_says_so_and_how_to_raise_it():
+    from optimizer.planning.results import summary_text
+
+    result = _timed_out()
+    page = _report_of(result)
+    text = summary_text(result)
+    for words in (page, text):
+        assert "time limit ran out" in words
+        assert "--time-limit" in words
+        assert "infeasible" not in words.lower()
+        assert "no_solution_in_time" not in words
+    assert "What does not fit" not in page and "no diagnosis available" not in page

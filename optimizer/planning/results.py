@@ -85,6 +85,24 @@ class SolveStatus(Enum):
         return self in (SolveStatus.OPTIMAL, SolveStatus.FEASIBLE_WITH_GAP)
 
 
+STATUS_WORDS = {
+    SolveStatus.OPTIMAL: "optimal (proven best within the gap asked for)",
+    SolveStatus.FEASIBLE_WITH_GAP: "good plan, not proven best (the time limit stopped the proof)",
+    SolveStatus.INFEASIBLE: "no plan meets every order with the machines available",
+    SolveStatus.NO_SOLUTION_IN_TIME: "no plan yet: the time limit ran out before the solver "
+    "found one",
+    SolveStatus.UNBOUNDED: "solver failure (unbounded model)",
+    SolveStatus.ERROR: "solver failure",
+}
+"""Plain words for each status, for screens and reports (JSON keeps the code)."""
+
+TIME_LIMIT_ADVICE = (
+    "This does not mean the orders cannot be met. Run again with a longer limit, "
+    "e.g. --time-limit 300 (seconds; the default is 60)."
+)
+"""What to do when the time limit ran out before any plan."""
+
+
 @dataclass(frozen=True)
 class BatchContent:
     """One product in a planned batch load.
@@ -601,7 +619,9 @@ def plan_tables(result: PlanResult, inputs: PlanInputs | None = None) -> dict[st
 
 def summary_text(result: PlanResult) -> str:
     """A short plain-text summary for the terminal."""
-    lines = [f"Plan status: {result.status.value} (solver {result.solver})"]
+    lines = [f"Plan status: {STATUS_WORDS[result.status]} (solver {result.solver})"]
+    if result.status is SolveStatus.NO_SOLUTION_IN_TIME:
+        lines.append(TIME_LIMIT_ADVICE)
     if result.objective_value is not None:
         lines.append(
             f"Objective ({result.objective.value}): {result.objective_value:,.1f} "

@@ -40,6 +40,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from optimizer.reporting.cells import column_decimals
+
 __all__ = [
     "FORMULA_STARTS",
     "OutputError",
@@ -453,11 +455,7 @@ def display_format(column: str, values: pd.Series) -> str | None:
         return "0.0%"
     if pd.api.types.is_integer_dtype(values):
         return "#,##0"
-    finite = values[np.isfinite(values.astype(float))].astype(float)
-    if finite.empty or np.allclose(finite, np.round(finite)):
-        return "#,##0"
-    peak = float(np.max(np.abs(finite)))
-    decimals = 0 if peak >= 1000 else 1 if peak >= 10 else 2 if peak >= 0.1 else 4
+    decimals = column_decimals(values)
     return "#,##0" + ("." + "0" * decimals if decimals else "")
 
 
