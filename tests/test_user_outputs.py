@@ -183,6 +183,7 @@ def test_tables_of_a_run_without_a_plan_have_no_index_column():
     for name, table in plan_tables(result).items():
         assert "index" not in [str(c) for c in table.columns], name
         assert table.empty, name
+    assert 'data-column="index"' not in _report_of(result)
 
 
 # -- defect 7: the schema accepts valid files, ships with the package ----------------
@@ -363,9 +364,6 @@ def test_notes_of_a_cell_are_folded_into_one_per_kind():
     )
     assert summarise_notes(text).count("result extrapolated") == 1
     assert summarise_notes(None) == "" and summarise_notes("") == ""
-
-    page = _report_of(result)
-    assert 'data-column="index"' not in page
 
 
 # -- defect 5: a time limit hit before any plan is not "infeasible" -------------------
