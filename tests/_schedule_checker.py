@@ -13,6 +13,7 @@ optimizer.planning.belt.
 from __future__ import annotations
 
 import bisect
+import itertools
 import math
 from collections import defaultdict
 
@@ -54,7 +55,7 @@ class _Travel:
         return self.t[k] + (x - self.x[k]) / self.v[k]
 
 
-def problems(inputs, result, schedule) -> list[str]:  # noqa: C901 - one rule after another
+def problems(inputs, result, schedule) -> list[str]:
     """Every rule the schedule breaks, one line each."""
     out: list[str] = []
     ovens = {o.name: o for o in inputs.ovens}
@@ -84,7 +85,7 @@ def problems(inputs, result, schedule) -> list[str]:  # noqa: C901 - one rule af
             ]
             items += [(x.start, x.end, "stop", x) for x in sh.stops if x.machine == name]
             items.sort(key=lambda i: (i[0], i[1]))
-            for a, b in zip(items, items[1:], strict=False):
+            for a, b in itertools.pairwise(items):
                 if b[0] < a[1] - TOL:
                     out.append(
                         f"{sh.shift} {name}: {a[2]} {a[0]:.3f}-{a[1]:.3f} overlaps "
@@ -100,7 +101,7 @@ def problems(inputs, result, schedule) -> list[str]:  # noqa: C901 - one rule af
             if abs(stop_min - want) > TOL:
                 out.append(f"{sh.shift} {name}: stops last {stop_min:g} min, scenario {want:g}")
             batches = sorted((b for b in sh.batches if b.oven == name), key=lambda b: b.load_start)
-            for prev, nxt in zip(batches, batches[1:], strict=False):
+            for prev, nxt in itertools.pairwise(batches):
                 if prev.setting != nxt.setting and o.changeover_min > 0:
                     cos = [
                         c
@@ -171,7 +172,7 @@ def problems(inputs, result, schedule) -> list[str]:  # noqa: C901 - one rule af
             tl = tl[0]
             off = offset[sh.shift]
             belt = sorted(tl.belt, key=lambda p: p.start)
-            for a, b in zip(belt, belt[1:], strict=False):
+            for a, b in itertools.pairwise(belt):
                 if abs(b.start - a.end) > TOL:
                     out.append(f"{sh.shift} {name}: belt profile gap {a.end:g}-{b.start:g}")
             for p in belt:
@@ -198,7 +199,7 @@ def problems(inputs, result, schedule) -> list[str]:  # noqa: C901 - one rule af
         travel = _Travel(merged)
         feeds.sort(key=lambda f: f[0])
         exits = []
-        for (a0, a1, f, s), nxt in zip(feeds, feeds[1:] + [None], strict=True):
+        for (a0, a1, f, s), nxt in zip(feeds, [*feeds[1:], None], strict=True):
             if nxt is not None and nxt[0] < a1 - TOL:
                 out.append(f"{name}: feeds {f.batch} and {nxt[2].batch} overlap")
             b = by_id.get(f.batch)
@@ -275,9 +276,9 @@ def problems(inputs, result, schedule) -> list[str]:  # noqa: C901 - one rule af
         # run changes: changeover after the previous feed; a new air setting only
         # over an empty belt
         first_of = {}
-        for a0, _a1, _ex, f, s in exits:
+        for a0, _a1, _ex, _f, s in exits:
             first_of.setdefault(s, a0)
-        for (_p0, p1, pex, pf, _ps), (n0, _n1, _nex, nf, ns) in zip(exits, exits[1:], strict=False):
+        for (_p0, p1, pex, pf, _ps), (n0, _n1, _nex, nf, ns) in itertools.pairwise(exits):
             if pf.tunnel_setting != nf.tunnel_setting and n0 < pex - TOL:
                 out.append(f"{nf.batch}: air setting changes while {pf.batch} is on the belt")
             same = (pf.product, pf.tunnel_setting) == (nf.product, nf.tunnel_setting)

@@ -201,7 +201,7 @@ def test_tunnel_setting_change_waits_for_an_empty_belt():
         ],
     )
     sh = schedule_plan(inp, res).shifts[0]
-    b1, b2 = sh.batches
+    _b1, b2 = sh.batches
     assert _times(b2) == pytest.approx((62.0, 66.0, 96.0, 98.0))
     f1, f2 = sh.tunnels[0].feeds
     assert (f1.start, f1.end, f1.last_exit) == pytest.approx((38.0, 48.0, 98.0))
