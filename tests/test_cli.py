@@ -789,3 +789,54 @@ def test_correlation_out_of_range_reaches_report_json_and_dwell_used(demo_plan):
     text = (out / "report.html").read_text(encoding="utf-8")
     for line in lines:
         assert html.escape(line) in text
+
+
+@pytest.fixture(scope="session")
+def scheduled_outputs(tmp_path_factory, cache, plant):
+    """The cut-down demo planned, scheduled by the timed scheduler, and written."""
+    from optimizer.dwell.table import build_dwell_table
+    from optimizer.planning.run import solve_run
+    from optimizer.planning.scheduler import schedule_plan
+    from optimizer.reporting.plan import write_plan_outputs
+    from optimizer.scenario.models import load_scenario
+
+    scenario = load_scenario(plant)
+    dwell = build_dwell_table(scenario, cache_dir=cache)
+    run = solve_run(str(plant), scenario, dwell)
+    schedule = schedule_plan(run.inputs, run.result)
+    out = tmp_path_factory.mktemp("scheduled")
+    write_plan_outputs(run, out, "corepace plan", schedule=schedule)
+    return run, schedule, out
+
+
+def test_schedule_files_carry_the_timed_schedule(scheduled_outputs):
+    """Issue 14 item 6: schedule.csv, its sheet, plan.json, floor sheet and timeline."""
+    from optimizer.planning.schedule import SCHEDULE_COLUMNS
+    from optimizer.reporting.export import header_text
+    from tests._schedule_checker import problems
+
+    run, schedule, out = scheduled_outputs
+    assert problems(run.inputs, run.result, schedule) == []
+    table = pd.read_csv(out / "schedule.csv")
+    assert tuple(table.columns) == SCHEDULE_COLUMNS
+    assert set(table["kind"]) <= {"batch", "changeover", "stop", "feed", "belt"}
+    assert {"batch", "feed", "belt"} <= set(table["kind"])
+    feeds = table[table["kind"] == "feed"]
+    assert feeds["kg"].sum() == pytest.approx(schedule.total_kg)
+    assert set(feeds["batch"]) <= set(table.loc[table["kind"] == "batch", "batch"])
+    sheet = pd.read_excel(out / "plan.xlsx", sheet_name="schedule")
+    assert list(sheet.columns) == [header_text(c) for c in SCHEDULE_COLUMNS]
+    assert len(sheet) == len(table)
+    data = json.loads((out / "plan.json").read_text())
+    assert data["schedule"]["columns"] == list(SCHEDULE_COLUMNS)
+    assert len(data["schedule"]["rows"]) == len(table)
+    assert "floor_sheet.html" in {Path(f).name for f in data["files"]}
+    floor = (out / "floor_sheet.html").read_text(encoding="utf-8")
+    machines = {(s.shift, b.oven) for s in schedule.shifts for b in s.batches}
+    machines |= {(s.shift, t.tunnel) for s in schedule.shifts for t in s.tunnels}
+    for shift, machine in machines:
+        assert f'data-sheet="{shift} · {machine}"' in floor
+    assert floor.count("Where to probe") == floor.count('class="sheet"')
+    report = (out / "report.html").read_text(encoding="utf-8")
+    assert "The timed schedule (schedule.csv" in report
+    assert "One plausible order" not in report

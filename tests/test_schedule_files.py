@@ -31,7 +31,7 @@ from optimizer.planning.schedule import (
     Unplaced,
 )
 from optimizer.reporting import export
-from optimizer.reporting.html import SAFETY_CAUTION
+from optimizer.reporting.html import SAFETY_CAUTION, schedule_timelines
 from optimizer.reporting.schedule_files import (
     belt_speed_down,
     clock,
@@ -39,7 +39,6 @@ from optimizer.reporting.schedule_files import (
     minutes_up,
     schedule_json,
     schedule_tables,
-    schedule_timelines,
 )
 
 

@@ -322,8 +322,12 @@ def test_the_collision_check_sees_labels_across_curves_and_on_each_other():
 def test_timeline_and_utilisation_plot_labels_do_not_collide():
     import pandas as pd
 
-    from optimizer.reporting.html import text_collisions, timeline_figure, utilisation_figure
-    from optimizer.reporting.schedule_files import schedule_timelines
+    from optimizer.reporting.html import (
+        schedule_timelines,
+        text_collisions,
+        timeline_figure,
+        utilisation_figure,
+    )
     from tests.test_schedule_files import _plant
 
     bars = schedule_timelines(_plant())["mon"]

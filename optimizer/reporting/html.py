@@ -41,6 +41,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from optimizer.dwell.histories import CurveSet, Stage
+from optimizer.planning.schedule import Schedule, ShiftSchedule, TunnelTimeline
 from optimizer.reporting.cells import (
     COLUMN_LABELS,
     column_decimals,
@@ -56,6 +57,8 @@ __all__ = [
     "TimelineBar",
     "figure_png",
     "plan_report",
+    "schedule_timelines",
+    "shift_bars",
     "shift_timelines",
     "temperature_figure",
     "timeline_figure",
@@ -620,6 +623,77 @@ def timeline_figure(
 
 
 # ---------------------------------------------------------------------------
+# Timeline bars
+# ---------------------------------------------------------------------------
+
+
+def _batch_group(contents: tuple) -> str:
+    return " + ".join(c.product for c in contents) if contents else "empty"
+
+
+def _tunnel_bars(tl: TunnelTimeline) -> list[TimelineBar]:
+    bars: list[TimelineBar] = []
+    for f in tl.feeds:
+        speeds = [p.speed_m_per_min for p in tl.belt if p.end > f.start and p.start < f.end]
+        label = f"{min(speeds):.2f} m/min" if speeds else ""
+        bars.append(TimelineBar(tl.tunnel, f.start, f.end, label, f.product))
+    if tl.feeds:
+        fed_until = max(f.end for f in tl.feeds)
+        clears = max(f.last_exit for f in tl.feeds)
+        if clears > fed_until:
+            bars.append(TimelineBar(tl.tunnel, fed_until, clears, "", "", "drain"))
+    return bars
+
+
+def shift_bars(shift: ShiftSchedule) -> list[TimelineBar]:
+    """Timeline bars of one shift of the schedule.
+
+    Ovens: a hatched bar for loading (load start to cook start) and for
+    unloading (cook end to unload end), a solid bar for the cook coloured by
+    what the batch holds, hatched bars for changeovers and stops. Tunnels: a
+    solid bar per feed segment coloured by product and labelled with the belt
+    speed, and a light bar from the last feed until the last piece leaves.
+
+    Parameters
+    ----------
+    shift : ShiftSchedule
+        One shift of the schedule.
+
+    Returns
+    -------
+    list of TimelineBar
+        In machine and time order.
+    """
+    bars: list[TimelineBar] = []
+    for b in sorted(shift.batches, key=lambda b: (b.oven, b.load_start)):
+        if b.cook_start > b.load_start:
+            bars.append(TimelineBar(b.oven, b.load_start, b.cook_start, kind="setup"))
+        bars.append(
+            TimelineBar(
+                b.oven,
+                b.cook_start,
+                b.cook_end,
+                b.batch.rsplit("/", 1)[-1],
+                _batch_group(b.contents),
+            )
+        )
+        if b.unload_end > b.cook_end:
+            bars.append(TimelineBar(b.oven, b.cook_end, b.unload_end, kind="setup"))
+    for c in shift.changeovers:
+        bars.append(TimelineBar(c.machine, c.start, c.end, kind="setup"))
+    for s in shift.stops:
+        bars.append(TimelineBar(s.machine, s.start, s.end, s.reason, "", "stop"))
+    for tl in shift.tunnels:
+        bars.extend(_tunnel_bars(tl))
+    return bars
+
+
+def schedule_timelines(schedule: Schedule) -> dict[str, list[TimelineBar]]:
+    """Timeline bars of every shift, by shift key (see :func:`shift_bars`)."""
+    return {s.shift: shift_bars(s) for s in schedule.shifts}
+
+
+# ---------------------------------------------------------------------------
 # The document
 # ---------------------------------------------------------------------------
 
@@ -1100,6 +1174,22 @@ def _kv_number(value: float | None, unit: str, decimals: int = 1) -> str:
 
 _EMPTY = pd.DataFrame()
 
+SCHEDULE_CAPTION = (
+    "The timed schedule (schedule.csv; floor_sheet.html to print per machine). Oven bars: "
+    "each batch's cook, numbered and coloured by what it holds; hatched: loading, "
+    "unloading and changeovers; grey: planned stops. Tunnel bars: each batch's product "
+    "going onto the belt, with the belt speed; light: the belt running on until the last "
+    "piece has left. The black line is the end of the shift."
+)
+ESTIMATE_CAPTION = (
+    "One plausible order of the planned batches and runs (this plan was not scheduled: it "
+    "fixes the counts per shift, not the order). Oven bars: cook dwell, coloured by what "
+    "the batch holds; hatched: load, unload and changeovers. Tunnel bars: each product's "
+    "kg at the belt speed shown, started only once its batch is unloaded (gaps: the belt "
+    "waits for an oven). The black line is the end of the shift; work past it carries "
+    "into the next shift."
+)
+
 
 def plan_report(
     result: Any,
@@ -1110,6 +1200,7 @@ def plan_report(
     curves: Sequence[tuple[str, CurveSet, str]] = (),
     methods: Sequence[tuple[str, str]] = (),
     notes: Sequence[str] = (),
+    schedule: Schedule | None = None,
 ) -> str:
     """The HTML report of one plan run.
 
@@ -1134,6 +1225,10 @@ def plan_report(
         Methods used and their published sources.
     notes : sequence of str
         Extra notes shown under the summary (assumptions, warnings).
+    schedule : optimizer.planning.schedule.Schedule or None
+        The plan's timed schedule; the timelines then show it
+        (:func:`schedule_timelines`). Without it they show one plausible order
+        of the planned counts.
 
     Returns
     -------
@@ -1251,9 +1346,13 @@ def plan_report(
 
     # -- per shift -----------------------------------------------------------
     if status.has_plan:
-        timelines = shift_timelines(result, inputs)
         machines = [o.name for o in inputs.ovens] + [t.name for t in inputs.tunnels]
-        shift_minutes = {s.name: s.minutes for s in inputs.shifts}
+        if schedule is None:
+            timelines = shift_timelines(result, inputs)
+            shift_minutes = {s.name: s.minutes for s in inputs.shifts}
+        else:
+            timelines = schedule_timelines(schedule)
+            shift_minutes = {s.shift: s.length_min for s in schedule.shifts}
         report.section("Plan per shift", newpage=True)
         ovens = tables.get("ovens", pd.DataFrame(columns=["shift"]))
         tunnels = tables.get("tunnels", pd.DataFrame(columns=["shift"]))
@@ -1284,12 +1383,7 @@ def plan_report(
                     shift_minutes=shift_minutes.get(shift),
                     machines=machines,
                 ),
-                caption="One plausible order of the planned batches and runs (the plan fixes "
-                "the counts per shift, not the order). Oven bars: cook dwell, coloured by "
-                "what the batch holds; hatched: load, unload and changeovers. Tunnel bars: "
-                "each product's kg at the belt speed shown, started only once its batch is "
-                "unloaded (gaps: the belt waits for an oven). The black line is the end of "
-                "the shift; work past it carries into the next shift.",
+                caption=SCHEDULE_CAPTION if schedule is not None else ESTIMATE_CAPTION,
                 alt=f"timeline of every machine in {shift}",
                 name=f"timeline-{shift}",
             )

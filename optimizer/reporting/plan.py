@@ -11,11 +11,13 @@ import pandas as pd
 from optimizer.dwell.describe import methods_used
 from optimizer.planning.results import PlanResult, bottleneck, totals_table
 from optimizer.planning.run import PlanRun, dwell_notes, temperature_curves
+from optimizer.planning.schedule import Schedule
 from optimizer.reporting import export
 from optimizer.reporting.html import RunInfo, plan_report
+from optimizer.reporting.schedule_files import floor_sheet_html, schedule_json, schedule_tables
 from optimizer.scenario.provenance import made_at, tool_version
 
-__all__ = ["plan_json", "write_plan_outputs"]
+__all__ = ["plan_json", "plan_schedule", "write_plan_outputs"]
 
 _NONE = pd.DataFrame()
 
@@ -62,25 +64,53 @@ def _run_info(run: PlanRun, argv_text: str) -> RunInfo:
     )
 
 
-def write_plan_outputs(run: PlanRun, target: Path, argv_text: str) -> list[Path]:
-    """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report."""
+def plan_schedule(run: PlanRun) -> Schedule | None:
+    """The timed schedule the plan carries, if it was scheduled."""
+    schedule = getattr(run.result, "schedule", None)
+    return schedule if isinstance(schedule, Schedule) else None
+
+
+def write_plan_outputs(
+    run: PlanRun, target: Path, argv_text: str, *, schedule: Schedule | None = None
+) -> list[Path]:
+    """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report.
+
+    With a timed schedule (``schedule``, else the one the plan carries) also
+    ``schedule.csv`` (and its sheet in ``plan.xlsx``), ``unplaced.csv`` when
+    anything was left out, the schedule in ``plan.json`` and
+    ``floor_sheet.html``; the report's timelines are then the schedule's.
+    """
     protect = [run.path]
+    schedule = schedule if schedule is not None else plan_schedule(run)
+    tables = dict(run.tables)
+    if schedule is not None:
+        tables.update(schedule_tables(schedule))
     wide = {"totals_wide": totals_table(run.result, run.inputs)}
     written = export.write_tables(
-        target, run.tables, workbook="plan.xlsx", protect=protect, extra_sheets=wide
+        target, tables, workbook="plan.xlsx", protect=protect, extra_sheets=wide
     )
     written.append(export.write_csv(target / "dwell.csv", run.dwell, protect=protect))
+    info = _run_info(run, argv_text)
     html_text = plan_report(
         run.result,
         run.inputs,
         run.tables,
-        info=_run_info(run, argv_text),
+        info=info,
         curves=temperature_curves(run),
         methods=methods_used(run.dwell, run.scenario),
         notes=dwell_notes(run.tables.get("dwell_used", _NONE)),
+        schedule=schedule,
     )
     written.append(export.atomic_write_text(target / "report.html", html_text, protect=protect))
-    written.append(
-        export.write_json(target / "plan.json", plan_json(run, written), protect=protect)
-    )
+    if schedule is not None:
+        sheet = floor_sheet_html(
+            schedule, run.tables.get("rules"), plant=info.plant, made=info.generated
+        )
+        written.append(
+            export.atomic_write_text(target / "floor_sheet.html", sheet, protect=protect)
+        )
+    data = plan_json(run, written)
+    if schedule is not None:
+        data["schedule"] = schedule_json(schedule)
+    written.append(export.write_json(target / "plan.json", data, protect=protect))
     return written

@@ -10,9 +10,6 @@ hand-built schedules:
     and ``unplaced`` (planned kg the schedule could not place, and why).
 :func:`schedule_json`
     The same rows for ``plan.json``, with the schedule's notes.
-:func:`schedule_timelines`
-    Bars per machine and shift for :func:`optimizer.reporting.html.timeline_figure`:
-    the report's timeline is the schedule itself.
 :func:`floor_sheet_html`
     A printable page per shift and machine, to be read at the oven and at the
     tunnel: batch by batch (start, trays of each product, setting, cook
@@ -40,7 +37,7 @@ import pandas as pd
 
 from optimizer.planning.schedule import Schedule, ShiftSchedule, TunnelTimeline, schedule_table
 from optimizer.reporting.export import table_records
-from optimizer.reporting.html import SAFETY_CAUTION, TimelineBar
+from optimizer.reporting.html import SAFETY_CAUTION
 
 __all__ = [
     "BELT_SPEED_STEP",
@@ -51,7 +48,6 @@ __all__ = [
     "minutes_up",
     "schedule_json",
     "schedule_tables",
-    "schedule_timelines",
     "start_minute",
 ]
 
@@ -189,77 +185,6 @@ def schedule_json(schedule: Schedule) -> dict[str, Any]:
         "back_to_back": schedule.back_to_back,
         "notes": list(schedule.notes),
     }
-
-
-# ---------------------------------------------------------------------------
-# Timeline bars
-# ---------------------------------------------------------------------------
-
-
-def _batch_group(contents: tuple) -> str:
-    return " + ".join(c.product for c in contents) if contents else "empty"
-
-
-def _tunnel_bars(tl: TunnelTimeline) -> list[TimelineBar]:
-    bars: list[TimelineBar] = []
-    for f in tl.feeds:
-        speeds = [p.speed_m_per_min for p in tl.belt if p.end > f.start and p.start < f.end]
-        label = f"{min(speeds):.2f} m/min" if speeds else ""
-        bars.append(TimelineBar(tl.tunnel, f.start, f.end, label, f.product))
-    if tl.feeds:
-        fed_until = max(f.end for f in tl.feeds)
-        clears = max(f.last_exit for f in tl.feeds)
-        if clears > fed_until:
-            bars.append(TimelineBar(tl.tunnel, fed_until, clears, "", "", "drain"))
-    return bars
-
-
-def shift_bars(shift: ShiftSchedule) -> list[TimelineBar]:
-    """Timeline bars of one shift of the schedule.
-
-    Ovens: a hatched bar for loading (load start to cook start) and for
-    unloading (cook end to unload end), a solid bar for the cook coloured by
-    what the batch holds, hatched bars for changeovers and stops. Tunnels: a
-    solid bar per feed segment coloured by product and labelled with the belt
-    speed, and a light bar from the last feed until the last piece leaves.
-
-    Parameters
-    ----------
-    shift : ShiftSchedule
-        One shift of the schedule.
-
-    Returns
-    -------
-    list of TimelineBar
-        In machine and time order.
-    """
-    bars: list[TimelineBar] = []
-    for b in sorted(shift.batches, key=lambda b: (b.oven, b.load_start)):
-        if b.cook_start > b.load_start:
-            bars.append(TimelineBar(b.oven, b.load_start, b.cook_start, kind="setup"))
-        bars.append(
-            TimelineBar(
-                b.oven,
-                b.cook_start,
-                b.cook_end,
-                b.batch.rsplit("/", 1)[-1],
-                _batch_group(b.contents),
-            )
-        )
-        if b.unload_end > b.cook_end:
-            bars.append(TimelineBar(b.oven, b.cook_end, b.unload_end, kind="setup"))
-    for c in shift.changeovers:
-        bars.append(TimelineBar(c.machine, c.start, c.end, kind="setup"))
-    for s in shift.stops:
-        bars.append(TimelineBar(s.machine, s.start, s.end, s.reason, "", "stop"))
-    for tl in shift.tunnels:
-        bars.extend(_tunnel_bars(tl))
-    return bars
-
-
-def schedule_timelines(schedule: Schedule) -> dict[str, list[TimelineBar]]:
-    """Timeline bars of every shift, by shift key (see :func:`shift_bars`)."""
-    return {s.shift: shift_bars(s) for s in schedule.shifts}
 
 
 # ---------------------------------------------------------------------------
