@@ -530,6 +530,10 @@ def test_capacity_with_fixed_mix(tmp_path, cache, capsys, demo_plan, plant):
     assert totals["pork-sausage"] / totals.sum() == pytest.approx(2 / 3, rel=1e-6)
     assert set(totals.index) == {"pork-sausage", "beef-meatball"}
     assert (out / "capacity.html").exists() and (out / "capacity.xlsx").exists()
+    # issue 17, defect 11: "What limits it" names the machine, not only the order
+    limits = (out / "capacity.html").read_text(encoding="utf-8").split("What limits it", 1)[1]
+    assert "machines whose time runs out" in limits
+    assert any(f"{kind} " in limits for kind in ("oven", "tunnel"))
     page = read_page(out / "capacity.html")
     assert_report_table_equals_csv(page, "capacity_mix", out / "capacity_mix.csv")
 
@@ -549,10 +553,19 @@ def test_compare_two_scenarios(tmp_path, cache, capsys, demo_plan, plant):
     result = json.loads(stdout)
     assert [s["label"] for s in result["scenarios"]] == ["plant", "longer-shifts"]
     table = pd.read_csv(out / "compare.csv")
-    assert list(table.columns) == ["figure", "unit", "plant", "longer-shifts"]
+    difference = "longer-shifts − plant"
+    assert list(table.columns) == ["figure", "unit", "plant", "longer-shifts", difference]
     total = table.set_index("figure").loc["total kg"]
     assert float(total["plant"]) == pytest.approx(result["scenarios"][0]["total_kg"])
     assert float(total["longer-shifts"]) == pytest.approx(result["scenarios"][1]["total_kg"])
+    # issue 17, defect 8: the difference column is the second minus the first
+    assert float(total[difference]) == pytest.approx(
+        float(total["longer-shifts"]) - float(total["plant"])
+    )
+    # issue 17, defect 11: utilisation in % as everywhere else, never "0.97" with "-"
+    util = table[table["figure"].str.startswith("mean utilisation")]
+    assert len(util) and set(util["unit"]) == {"%"}
+    assert util["plant"].astype(float).between(0, 100).all()
     # longer shifts never make less
     assert float(total["longer-shifts"]) >= float(total["plant"]) * (1 - 1e-6)
     page = read_page(out / "compare.html")

@@ -524,6 +524,8 @@ def test_sweep_command_writes_tables_report_and_exit_code(plant, cache, tmp_path
         "sweep.html",
         "sweep.json",
         "sweep.xlsx",
+        "sweep_kg.csv",
+        "sweep_utilisation.csv",
     ]
     table = pd.read_csv(out / "sweep.csv")
     assert list(table["point"]) == ["today", "longer", "impossible orders"]
@@ -779,3 +781,72 @@ def test_sweep_command_resumes_in_pool_mode_and_restarts(
     assert "resuming" not in stdout
     pd.testing.assert_frame_equal(restarted, serial_command_table)
     assert sorted(points.glob("*.json")) == files
+
+
+def test_sweep_outputs_are_tidy_and_the_report_shows_the_decision_first(plant, cache, tmp_path):
+    """Issue 17, defects 8 and 12: decision first, payback/NPV chart, long-form tables."""
+    from optimizer.reporting.html import text_collisions
+    from tests import browser as br
+
+    study = write_study(
+        plant,
+        "decision.yaml",
+        {
+            "study": "decision test",
+            "base": "plant.yaml",
+            "shifts_per_week": 10,
+            "points": [
+                {"name": "today"},
+                {"name": "longer", "changes": [{"what": "tunnel_longer_by", "value": "12 m"}]},
+                {"name": "much longer", "changes": [{"what": "tunnel_longer_by", "value": "40 m"}]},
+            ],
+            "finance": {"discount_rate": "6 %", "years": 8},
+            "purchases": [
+                {"name": "ext 12 m", "point": "longer", "capital": 20000, "margin_per_kg": 1},
+                {"name": "ext 40 m", "point": "much longer", "capital": 900000, "margin_per_kg": 1},
+            ],
+        },
+    )
+    out = tmp_path / "out"
+    assert (
+        sweep_cli.main([str(study), "--out", str(out), "--cache-dir", str(cache), "--serial"]) == 0
+    )
+    table = pd.read_csv(out / "sweep.csv")
+    assert not [c for c in table.columns if c.startswith(("util:", "kg:"))]
+    util = pd.read_csv(out / "sweep_utilisation.csv")
+    assert list(util.columns) == ["point", "machine", "utilisation"]
+    assert len(util) == 3 * 2  # three points x (oven, tunnel), one observation per row
+    kg = pd.read_csv(out / "sweep_kg.csv")
+    assert list(kg.columns) == ["point", "product", "kg"]
+    total = table.set_index("point")["total_kg"]
+    for point, rows in kg.groupby("point"):
+        assert rows["kg"].sum() == pytest.approx(total[point])
+    sheets = pd.read_excel(out / "sweep.xlsx", sheet_name=None)
+    assert "sweep_wide" in sheets and any(
+        c.startswith("util:") for c in sheets["sweep_wide"].columns
+    )
+    purchases = pd.read_csv(out / "purchases.csv")
+    assert list(purchases.columns[:4]) == [
+        "option",
+        "extra_kg_per_week",
+        "simple_payback_years",
+        "npv",
+    ]
+    page = (out / "sweep.html").read_text(encoding="utf-8")
+    decision = page.index("The decision")
+    assert decision < page.index('id="purchase-options"') < page.index('id="all-points"')
+    first = page[decision : page.index('id="purchase-options"')]
+    for option in ("ext 12 m", "ext 40 m"):
+        assert option in first
+    assert "pays back in" in first and "NPV" in first and 'data-figure="purchases"' in first
+    assert "NPV [" in page and "payback [years]" in page  # units in the headers
+    result = run_study(load_study(study), mode="serial", cache_dir=cache)
+    for _, fig, _ in study_report.study_figures(result):
+        assert text_collisions(fig) == []
+    assert text_collisions(study_report.purchase_figure(result.purchases, "EUR")) == []
+    with br.browser() as b:
+        for width, printed in ((br.DESKTOP, False), (br.PHONE, False), (br.PRINT_WIDTH, True)):
+            layout = br.measure(b, out / "sweep.html", width, printed=printed)
+            assert not layout.wide, (width, layout.wide)
+            assert not layout.small, (width, layout.small)
+            assert layout.scroll_width <= width

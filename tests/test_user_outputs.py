@@ -385,3 +385,112 @@ def test_time_limit_before_any_plan_says_so_and_how_to_raise_it():
         assert "infeasible" not in words.lower()
         assert "no_solution_in_time" not in words
     assert "What does not fit" not in page and "no diagnosis available" not in page
+
+
+# -- defect 11: smaller items ----------------------------------------------------------
+
+
+def test_every_config_named_in_help_and_readme_exists_and_loads():
+    import re
+
+    root = Path(__file__).resolve().parents[1]
+    texts = [p.read_text(encoding="utf-8") for p in (root / "optimizer" / "cli").glob("*.py")]
+    texts.append((root / "README.md").read_text(encoding="utf-8"))
+    named = {m for t in texts for m in re.findall(r"configs/[\w.-]+\.yaml", t)}
+    assert "configs/demo-longer-tunnel.yaml" in named
+    for name in sorted(named):
+        assert (root / name).is_file(), name
+        if not name.startswith("configs/study"):
+            load_scenario(root / name)
+    assert (
+        load_scenario(root / "configs/demo-longer-tunnel.yaml").tunnel("chill-tunnel").length == 30
+    )
+
+
+def test_readme_lists_every_exit_code():
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    part = text.split("Exit codes:", 1)[1][:600]
+    for code in ("0 done", "1 no plan", "2 bad input", "3 internal error"):
+        assert code in part
+
+
+def test_validate_counts_in_words(capsys):
+    from optimizer.cli.app import main
+
+    assert main(["validate", str(CONFIGS / "demo.yaml")]) == 0
+    out = capsys.readouterr().out
+    assert "1 tunnel," in out and "1 tunnels" not in out and "2 ovens" in out
+
+
+def test_codes_are_shown_in_words_and_kept_in_files():
+    from optimizer.reporting.cells import CODE_WORDS, format_cell
+
+    assert format_cell("exit_core_max") == "core temperature at the tunnel exit"
+    assert format_cell("feasible_with_gap") == "feasible, not proven optimal"
+    assert format_cell("chicken-fillet") == "chicken-fillet"
+    assert all("_" not in words for words in CODE_WORDS.values())
+
+
+def test_loadings_that_cool_alike_are_named_once():
+    import pandas as pd
+
+    from optimizer.planning.run import alike_loadings
+
+    def rows(spaced_factor):
+        return pd.DataFrame(
+            [
+                {
+                    "product": p,
+                    "oven": "o",
+                    "oven_setting": "s",
+                    "tunnel": "t",
+                    "tunnel_setting": "c",
+                    "loading": ld,
+                    "chill_min": m * (spaced_factor if ld == "spaced" else 1),
+                }
+                for p, m in (("A", 30.0), ("B", 55.0))
+                for ld in ("full", "spaced")
+            ]
+        )
+
+    notes = alike_loadings(rows(1.0))
+    assert len(notes) == 1 and "full, spaced of t cool alike" in notes[0]
+    assert alike_loadings(rows(0.8)) == []
+
+
+# -- first screen: the plan in plain sentences -------------------------------------------
+
+
+def test_explanation_names_the_bottleneck_orders_unmade_products_and_small_batches():
+    import dataclasses
+
+    from optimizer.planning.inputs import Objective, OrderData, SolveOptions
+    from optimizer.planning.results import kg_table
+    from optimizer.planning.solve import plan
+    from optimizer.reporting.explain import not_made_notes, plan_explanation
+    from tests._planner_cases import one_line
+
+    # A must make 200 kg and is worth little; C is optional and worth nothing;
+    # B fills the rest. The belt takes 10 kg/m2 x 1 m x 1 m/min = 10 kg/min and
+    # the hot hold is 5 min, so a batch of B cannot be more than about 50 kg.
+    inputs = one_line(
+        products={
+            "A": (10.0, 50.0, 1.0, {"value_per_kg": 1.0}),
+            "B": (10.0, 40.0, 1.0, {"value_per_kg": 5.0, "hot_hold_min": 5.0}),
+            "C": (10.0, 40.0, 1.0, {"value_per_kg": 0.0}),
+        },
+        orders=[OrderData("A", min_kg=200.0), OrderData("B"), OrderData("C")],
+        objective=Objective.MOST_VALUE,
+    )
+    inputs = dataclasses.replace(inputs, currency="EUR")
+    result = plan(inputs, SolveOptions(time_limit_s=30))
+    assert result.status.has_plan
+    lines = plan_explanation(result, inputs, not_made_notes(kg_table(result, inputs)))
+    text = "\n".join(lines)
+    assert "limits the plan" in lines[0] and "EUR" in lines[0]
+    a = next(line for line in lines if line.startswith("A: "))
+    assert "order minimum" in a and "on oven-1 at hot" in a
+    c = next(line for line in lines if line.startswith("C: "))
+    assert "not made" in c and "no minimum order" in c
+    assert "hot hold" in text and "B" in text
+    assert "_" not in text.replace("hot_hold", "")  # no raw codes

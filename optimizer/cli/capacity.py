@@ -160,9 +160,9 @@ def cmd_capacity(args: argparse.Namespace, ui: Ui) -> int:
     ui.emit_json(data)
     ui.say(rich_table(tables["capacity_mix"], title=f"Mix ({source})"))
     for line in full_machines(cap.plan):
-        ui.say(f"At capacity: {line}")
-    if cap.limit is not None:
-        ui.say("Just above this total the plan runs out of:")
+        ui.say(f"What limits it: {line}")
+    if cap.limit is not None and cap.limit.shortfalls:
+        ui.say("Asked for more of this mix, the elastic re-solve reports:")
         for s in cap.limit.shortfalls:
             ui.say(f"  - {s.message}")
     say_written(ui, written)

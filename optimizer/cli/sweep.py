@@ -40,6 +40,7 @@ from optimizer.studies.study import (
     load_study,
     run_study,
     sweep_points,
+    tidy_tables,
 )
 
 if TYPE_CHECKING:  # dask.distributed is the optional 'sweep' extra
@@ -239,8 +240,14 @@ def _sweep_into(
         raise
     protect = [args.study, str(study.base_path)]
     with ui.status("writing the report"):
-        tables = {"sweep": result.table, "purchases": result.purchases}
-        written = export.write_tables(target, tables, workbook="sweep.xlsx", protect=protect)
+        tables = {**tidy_tables(result.table), "purchases": result.purchases}
+        written = export.write_tables(
+            target,
+            tables,
+            workbook="sweep.xlsx",
+            protect=protect,
+            extra_sheets={"sweep_wide": result.table},
+        )
         html_text = sweep_report(
             result,
             command=getattr(args, "argv_text", ""),

@@ -33,7 +33,7 @@ def cmd_validate(args: argparse.Namespace, ui: Ui) -> int:
     scenario = load(args.scenario, args)
     summary = _scenario_summary(scenario)
     ui.emit_json({"scenario": args.scenario, "valid": True, "problems": [], **summary})
-    parts = ", ".join(f"{v} {k}" for k, v in summary.items())
+    parts = ", ".join(f"{v} {k if v != 1 else k[:-1]}" for k, v in summary.items())
     ui.result(f"{args.scenario}: valid ({parts})" if parts else f"{args.scenario}: valid")
     return EXIT_OK
 

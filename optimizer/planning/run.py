@@ -9,6 +9,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 
 from optimizer.dwell.describe import rules_table
@@ -24,6 +25,7 @@ from optimizer.scenario.provenance import file_sha256, resolved_sha256
 
 __all__ = [
     "PlanRun",
+    "alike_loadings",
     "dwell_notes",
     "dwell_used_table",
     "main_routes",
@@ -187,6 +189,46 @@ def summarise_notes(text: object) -> str:
         shown = f"{lo:.4g}" if lo == hi else f"{lo:.4g}–{hi:.4g}"
         out.append(template.replace("{}", shown, 1))
     return "; ".join(out)
+
+
+def alike_loadings(dwell: pd.DataFrame) -> list[str]:
+    """A note per tunnel whose loadings all give the same chill in the dwell table.
+
+    Loadings without a measured ``h_factor`` cool alike in the model, so their
+    dwell rows repeat; a reader is told once instead of wondering why.
+
+    Parameters
+    ----------
+    dwell : pandas.DataFrame
+        The dwell table (columns of :data:`optimizer.dwell.table.DWELL_KEYS`,
+        ``chill_min``).
+
+    Returns
+    -------
+    list of str
+        One sentence per such tunnel (none when loadings differ or a tunnel
+        has one loading).
+    """
+    if dwell.empty or "chill_min" not in dwell.columns:
+        return []
+    notes = []
+    for tunnel, rows in dwell.groupby("tunnel", sort=False):
+        loadings = list(dict.fromkeys(rows["loading"]))
+        if len(loadings) < 2:
+            continue
+        keys = [k for k in DWELL_KEYS if k not in ("tunnel", "loading")]
+        wide = rows.pivot_table(index=keys, columns="loading", values="chill_min", dropna=False)
+        values = wide.to_numpy(dtype=float)
+        same = np.isclose(values, values[:, :1], rtol=1e-9, atol=0.0) | (
+            np.isnan(values) & np.isnan(values[:, :1])
+        )
+        if values.size and same.all():
+            notes.append(
+                f"Loadings {', '.join(loadings)} of {tunnel} cool alike in the model (no "
+                "h_factor measured for them), so their dwell rows are the same; they "
+                "differ only in the kg a metre of belt carries."
+            )
+    return notes
 
 
 def dwell_notes(dwell_used: pd.DataFrame) -> list[str]:

@@ -81,7 +81,15 @@ def capacity_report(
         percent=("share",),
     )
     report.section("What limits it")
+    full = full_machines(cap.plan)
+    if full:
+        report.paragraph("The machines whose time runs out at this capacity:")
+        report.bullets(full)
     if cap.limit is not None and cap.limit.shortfalls:
+        report.paragraph(
+            "Asked for more of the same mix, the elastic re-solve reports what would be "
+            "missing (the order it cannot meet follows from the machines above):"
+        )
         report.bullets(s.message for s in cap.limit.shortfalls)
     report.table(
         "capacity_limits",

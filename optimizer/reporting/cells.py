@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 
 __all__ = [
+    "CODE_WORDS",
     "COLUMN_LABELS",
     "column_decimals",
     "exact_text",
@@ -71,6 +72,28 @@ def column_decimals(values: pd.Series) -> int:
     return 4
 
 
+CODE_WORDS = {
+    # statuses (plan.json and the CSV files keep the codes)
+    "optimal": "optimal",
+    "feasible_with_gap": "feasible, not proven optimal",
+    "infeasible": "infeasible (orders do not fit)",
+    "no_solution_in_time": "no plan within the time limit",
+    # the clause of a rule that sets a dwell
+    "core_target": "core temperature target",
+    "hold": "hold at the core temperature",
+    "lethality": "lethality (log reduction)",
+    "table": "time at temperature (rule's table)",
+    "exit_core_max": "core temperature at the tunnel exit",
+    "surface_max": "surface temperature limit",
+    # objectives
+    "most_kg": "most kg",
+    "most_value": "most value",
+    "least_energy": "least energy",
+    "soonest": "orders soonest",
+}
+"""Plain words shown for the codes a table cell may hold (the files keep the codes)."""
+
+
 def format_cell(value: Any, decimals: int = 2) -> str:
     """Readable text for one table cell.
 
@@ -85,7 +108,8 @@ def format_cell(value: Any, decimals: int = 2) -> str:
     -------
     str
         ``"–"`` for missing values, ``"yes"``/``"no"`` for booleans, numbers
-        with thousands separators, everything else as ``str``.
+        with thousands separators, the words of :data:`CODE_WORDS` for a
+        code, everything else as ``str``.
     """
     if is_missing(value):
         return "–"
@@ -98,6 +122,8 @@ def format_cell(value: Any, decimals: int = 2) -> str:
         if math.isinf(number):
             return "∞" if number > 0 else "−∞"
         return f"{number:,.{decimals}f}"
+    if isinstance(value, str):
+        return CODE_WORDS.get(value, value)
     return str(value)
 
 

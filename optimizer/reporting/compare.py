@@ -20,9 +20,11 @@ def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFram
     """Side-by-side figures of several plan runs: one row per figure, one column per scenario.
 
     Rows: status, objective value, total kg, mean kg per shift, kg of each
-    product, mean utilisation of each machine, the bottleneck and its shadow
-    price, solve seconds. Values are strings or numbers; a product or machine
-    a scenario does not have is empty.
+    product, mean utilisation of each machine [%], the bottleneck and its
+    shadow price, solve seconds. Values are strings or numbers; a product or
+    machine a scenario does not have is empty. With two or more scenarios,
+    a column per later scenario gives its difference from the first, for
+    every figure that is a number.
     """
     products = sorted({r.product for run in runs for r in run.result.runs})
     machines = list(dict.fromkeys(u.machine for run in runs for u in run.result.machine_use))
@@ -46,8 +48,8 @@ def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFram
         values = []
         for run in runs:
             uses = [u.utilisation for u in run.result.machine_use if u.machine == m]
-            values.append(sum(uses) / len(uses) if uses else None)
-        add(f"utilisation {m}", "-", values)
+            values.append(100.0 * sum(uses) / len(uses) if uses else None)
+        add(f"mean utilisation {m}", "%", values)
     bns = [bottleneck(run.result) for run in runs]
     add("bottleneck", "", [f"{b.kind} {b.machine}" if b else "" for b in bns])
     add(
@@ -58,7 +60,21 @@ def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFram
     data = {"figure": [r[0] for r in rows], "unit": [r[1] for r in rows]}
     for i, label in enumerate(labels):
         data[label] = [r[2][i] for r in rows]
-    return pd.DataFrame(data).astype({label: object for label in labels})
+    differences = {}
+    for i, label in enumerate(labels[1:], start=1):
+        # what changes against the first scenario, for every figure that is a number
+        differences[f"{label} − {labels[0]}"] = [_difference(r[2][i], r[2][0]) for r in rows]
+    data.update(differences)
+    return pd.DataFrame(data).astype({c: object for c in [*labels, *differences]})
+
+
+def _difference(value: Any, base: Any) -> float | None:
+    numbers = (int, float)
+    if isinstance(value, bool) or isinstance(base, bool):
+        return None
+    if isinstance(value, numbers) and isinstance(base, numbers):
+        return float(value) - float(base)
+    return None
 
 
 def compare_report(

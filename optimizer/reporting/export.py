@@ -407,12 +407,13 @@ def excel_sheet_names(names: Iterable[str]) -> list[str]:
 
 # Column-name endings that carry a unit, longest first: "cook_min" -> "cook [min]".
 _UNIT_ENDINGS = (
+    ("_kwh_per_t", "kWh/t"),
     ("_m_per_min", "m/min"),
     ("_kj_per_kg", "kJ/kg"),
     ("_kg_per_h", "kg/h"),
     ("_kg_per_week", "kg/week"),
     ("_per_kg", "per kg"),
-    ("_per_week", "per week"),
+    ("_per_year", "per year"),
     ("_per_h", "per h"),
     ("_kwh", "kWh"),
     ("_min", "min"),
@@ -421,6 +422,15 @@ _UNIT_ENDINGS = (
     ("_s", "s"),
     ("_m", "m"),
 )
+_WHOLE_NAMES = {
+    "kg_per_week": "kg per week",
+    "kg_per_shift": "kg per shift",
+    "value_per_week": "value per week",
+    "total_kg": "total kg",
+    "n_shifts": "shifts",
+    "shifts_per_week": "shifts per week",
+    "npv": "NPV",
+}
 PERCENT_COLUMNS = frozenset({"utilisation", "gap", "share"})
 """Columns holding fractions [-], shown as percentages in workbooks (value kept)."""
 
@@ -433,6 +443,8 @@ def header_text(column: Any) -> str:
     ending just lose their underscores (``oven_setting`` → ``oven setting``).
     """
     name = str(column)
+    if name in _WHOLE_NAMES:
+        return _WHOLE_NAMES[name]
     if name in PERCENT_COLUMNS:
         return f"{name} [%]"
     for ending, unit in _UNIT_ENDINGS:

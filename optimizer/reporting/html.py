@@ -1201,6 +1201,7 @@ def plan_report(
     methods: Sequence[tuple[str, str]] = (),
     notes: Sequence[str] = (),
     schedule: Schedule | None = None,
+    explanation: Sequence[str] = (),
 ) -> str:
     """The HTML report of one plan run.
 
@@ -1229,6 +1230,9 @@ def plan_report(
         The plan's timed schedule; the timelines then show it
         (:func:`schedule_timelines`). Without it they show one plausible order
         of the planned counts.
+    explanation : sequence of str
+        Plain sentences on why the plan is what it is
+        (:func:`optimizer.reporting.explain.plan_explanation`), shown first.
 
     Returns
     -------
@@ -1276,6 +1280,9 @@ def plan_report(
         pairs.append(("relative gap", f"{100 * result.gap:.3f} %"))
     pairs.append(("solver", result.solver))
     report.key_values(pairs)
+    if explanation:
+        report.heading("Why the plan looks like this")
+        report.bullets(explanation)
     if not status.has_plan:
         proven = not any(m.startswith(ELASTIC_STOPPED) for m in result.messages)
         report.note(

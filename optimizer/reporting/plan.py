@@ -10,9 +10,10 @@ import pandas as pd
 
 from optimizer.dwell.describe import methods_used
 from optimizer.planning.results import PlanResult, bottleneck, totals_table
-from optimizer.planning.run import PlanRun, dwell_notes, temperature_curves
+from optimizer.planning.run import PlanRun, alike_loadings, dwell_notes, temperature_curves
 from optimizer.planning.schedule import Schedule
 from optimizer.reporting import export
+from optimizer.reporting.explain import not_made_notes, plan_explanation
 from optimizer.reporting.html import RunInfo, plan_report
 from optimizer.reporting.schedule_files import floor_sheet_html, schedule_json, schedule_tables
 from optimizer.scenario.provenance import made_at, tool_version
@@ -98,8 +99,11 @@ def write_plan_outputs(
         info=info,
         curves=temperature_curves(run),
         methods=methods_used(run.dwell, run.scenario),
-        notes=dwell_notes(run.tables.get("dwell_used", _NONE)),
+        notes=[*dwell_notes(run.tables.get("dwell_used", _NONE)), *alike_loadings(run.dwell)],
         schedule=schedule,
+        explanation=plan_explanation(
+            run.result, run.inputs, not_made_notes(run.tables.get("totals", _NONE))
+        ),
     )
     written.append(export.atomic_write_text(target / "report.html", html_text, protect=protect))
     if schedule is not None:

@@ -12,12 +12,27 @@ from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+from matplotlib.ticker import FuncFormatter, MaxNLocator
 
 from optimizer.reporting import export
 from optimizer.reporting.html import BAR_COLOURS, INK, MUTED, SAFETY_CAUTION, HtmlReport
-from optimizer.studies.study import SweepResult, axis_numbers, axis_unit, value_text
+from optimizer.studies.study import (
+    SweepResult,
+    axis_numbers,
+    axis_unit,
+    tidy_tables,
+    value_text,
+)
 
-__all__ = ["MONEY_CAUTION", "study_figures", "sweep_json", "sweep_report"]
+__all__ = [
+    "MONEY_CAUTION",
+    "decision_lines",
+    "purchase_figure",
+    "purchase_labels",
+    "study_figures",
+    "sweep_json",
+    "sweep_report",
+]
 
 
 _MARKERS = ("o", "s", "^", "D", "v", "P", "X", "*")
@@ -75,13 +90,16 @@ def study_figures(result: SweepResult) -> list[tuple[str, Figure, str]]:
         for y, (v, ok) in enumerate(zip(values, planned, strict=True)):
             ax.text(v, y, f" {v:,.0f}" if ok else " no plan", va="center", fontsize=7.5)
         ax.invert_yaxis()
+        # room right of the longest bar for its value label; the legend sits outside
+        ax.set_xlim(0, max([*values, 1.0]) * 1.18)
         ax.set_xlabel("kg per week", fontsize=9, color=INK)
         ax.set_title("Throughput per point (colour: bottleneck)", fontsize=10, loc="left")
         ax.legend(
             handles=[Patch(color=c, label=f"bottleneck: {b}") for b, (c, _) in styles.items()],
             fontsize=7.5,
             frameon=False,
-            loc="lower right",
+            loc="upper left",
+            bbox_to_anchor=(1.01, 1.0),
         )
         tidy(ax)
         fig.tight_layout()
@@ -247,19 +265,35 @@ def sweep_report(
     )
 
     if study.spec.purchases:
-        report.section("Purchase options")
         fin = study.spec.finance
         assert fin is not None
+        money = currency or "currency"
+        report.heading("The decision")
+        report.bullets(decision_lines(result.purchases, money, fin.years))
+        chart = purchase_figure(result.purchases, money)
+        if chart is not None:
+            report.figure(
+                chart,
+                caption=f"Simple payback [years] and NPV over {fin.years} years [{money}] "
+                "per purchase option (no bar: the option does not pay back).",
+                alt="payback and NPV per purchase option",
+                name="purchases",
+            )
+        report.section("Purchase options")
         report.paragraph(
             f"Against the base point {base['point']!r}; {fin.years} years at "
             f"{100 * fin.discount_rate:g} % a year, {fin.weeks_per_year:g} production weeks a "
             f"year; money in {currency or 'the scenario currency'}."
         )
+        shown = [c for c in PURCHASE_SHOWN if c in result.purchases.columns]
         report.table(
             "purchases",
-            result.purchases,
-            caption="Extra margin, simple payback and NPV per option",
+            result.purchases[shown],
+            caption="Extra margin, simple payback and NPV per option (every column, with "
+            "the margin basis and the finance terms, in purchases.csv)",
             empty_text="no purchase options",
+            labels=purchase_labels(money),
+            percent=("discount_rate",),
         )
         notes = [f"{r.option}: {r.note}" for r in result.purchases.itertuples() if r.note]
         if notes:
@@ -270,11 +304,27 @@ def sweep_report(
         report.figure(fig, caption=caption, alt=caption, name=name)
 
     report.section("All points")
+    tidy = tidy_tables(table)
+    points = tidy["sweep"]
     report.table(
         "sweep",
-        table,
-        caption="One plan per point",
-        percent=[c for c in table.columns if c.startswith("util:")],
+        points[[c for c in ("point", *study.columns, *SWEEP_SHOWN) if c in points.columns]],
+        caption="One plan per point (every column in sweep.csv)",
+        labels={c: export.header_text(c) for c in points.columns},
+        percent=("gap",),
+    )
+    report.table(
+        "sweep_utilisation",
+        tidy["sweep_utilisation"],
+        caption="Mean utilisation per machine at each point",
+        percent=("utilisation",),
+        empty_text="no point has a plan",
+    )
+    report.table(
+        "sweep_kg",
+        tidy["sweep_kg"],
+        caption="kg per product at each point, over the scenario's shifts",
+        empty_text="no point has a plan",
     )
     failed = table[~table["status"].isin(["optimal", "feasible_with_gap"])]
     if not failed.empty:
@@ -291,6 +341,115 @@ def sweep_report(
     return report.render()
 
 
+PURCHASE_SHOWN = (
+    "option",
+    "extra_kg_per_week",
+    "simple_payback_years",
+    "npv",
+    "capital",
+    "running_cost_per_year",
+    "base_bottleneck",
+    "option_bottleneck",
+)
+"""Purchase-table columns shown in the report (all of them are in purchases.csv)."""
+
+SWEEP_SHOWN = (
+    "status",
+    "kg_per_week",
+    "value_per_week",
+    "bottleneck",
+    "marginal_value",
+    "marginal_unit",
+    "energy_kwh_per_t",
+    "message",
+)
+"""Results-table columns shown after the point and its axes (all of them are in sweep.csv)."""
+
+
+def purchase_labels(money: str) -> dict[str, str]:
+    """Headers of the purchase table with their units (money in ``money``)."""
+    return {
+        "option": "option",
+        "extra_kg_per_week": "extra [kg/week]",
+        "simple_payback_years": "payback [years]",
+        "npv": f"NPV [{money}]",
+        "point": "point",
+        "capital": f"capital [{money}]",
+        "running_cost_per_year": f"running cost [{money}/year]",
+        "base_kg_per_week": "base [kg/week]",
+        "option_kg_per_week": "with option [kg/week]",
+        "margin_basis": "margin basis",
+        "extra_margin_per_year": f"extra margin [{money}/year]",
+        "net_per_year": f"net [{money}/year]",
+        "years": "years",
+        "discount_rate": "discount rate",
+        "base_bottleneck": "bottleneck today",
+        "option_bottleneck": "bottleneck with it",
+        "note": "note",
+    }
+
+
+def decision_lines(purchases: pd.DataFrame, money: str, years: int) -> list[str]:
+    """One sentence per purchase option: extra kg, payback and NPV, best NPV first."""
+    lines = []
+    order = purchases.sort_values("npv", ascending=False, na_position="last", kind="stable")
+    for r in order.itertuples():
+        extra = r.extra_kg_per_week
+        if pd.isna(extra):
+            lines.append(f"{r.option}: not priced ({r.note or 'no plan at its point'}).")
+            continue
+        payback = r.simple_payback_years
+        pays = (
+            f"pays back in {payback:.1f} years"
+            if pd.notna(payback) and math.isfinite(payback)
+            else "does not pay back"
+        )
+        npv = f"NPV {r.npv:,.0f} {money} over {years} years" if pd.notna(r.npv) else "no NPV"
+        moved = (
+            f"; the bottleneck moves from {r.base_bottleneck} to {r.option_bottleneck}"
+            if r.base_bottleneck
+            and r.option_bottleneck
+            and r.base_bottleneck != r.option_bottleneck
+            else ""
+        )
+        lines.append(f"{r.option}: {extra:+,.0f} kg a week, {pays}, {npv}{moved}.")
+    return lines
+
+
+def purchase_figure(purchases: pd.DataFrame, money: str) -> Figure | None:
+    """Bars of simple payback and NPV per purchase option (None without options)."""
+    if purchases.empty:
+        return None
+    names = list(purchases["option"])
+    payback = [
+        float(v) if pd.notna(v) and math.isfinite(float(v)) else 0.0
+        for v in purchases["simple_payback_years"]
+    ]
+    npv = [float(v) if pd.notna(v) else 0.0 for v in purchases["npv"]]
+    fig = Figure(figsize=(7.4, 1.6 + 0.7 * len(names)), layout="constrained")
+    top, bottom = fig.subplots(2, 1)
+    for ax, values, label, fmt in (
+        (top, payback, "simple payback [years]", "{:.1f}"),
+        (bottom, npv, f"NPV [{money}]", "{:,.0f}"),
+    ):
+        ax.barh(names, values, color=[BAR_COLOURS[i % len(BAR_COLOURS)] for i in range(len(names))])
+        ax.spines["top"].set_visible(False)
+        ax.spines["right"].set_visible(False)
+        ax.tick_params(labelsize=8)
+        ax.grid(True, axis="x", color="#e3e6e8", linewidth=0.6)
+        low = min([*values, 0.0])
+        high = max([*values, 0.0])
+        span = (high - low) or 1.0
+        ax.set_xlim(low - 0.02 * span, high + 0.45 * span)
+        for y, v in enumerate(values):
+            ax.text(v if v >= 0 else 0, y, " " + fmt.format(v), va="center", fontsize=7.5)
+        ax.set_xlabel(label, fontsize=9, color=INK)
+        ax.xaxis.set_major_locator(MaxNLocator(5))
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda x, _: f"{x:,.6g}"))
+        ax.invert_yaxis()
+    return fig
+
+
 def sweep_json(result: SweepResult, files: Sequence[Path]) -> dict[str, Any]:
     study = result.study
     return {
@@ -302,7 +461,7 @@ def sweep_json(result: SweepResult, files: Sequence[Path]) -> dict[str, Any]:
         "planned": int(result.table["status"].isin(["optimal", "feasible_with_gap"]).sum()),
         "files": [str(f) for f in files],
         "tables": {
-            "sweep": export.table_records(result.table),
+            **{name: export.table_records(t) for name, t in tidy_tables(result.table).items()},
             "purchases": export.table_records(result.purchases),
         },
     }

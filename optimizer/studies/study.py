@@ -1588,19 +1588,56 @@ def results_table(study: Study, rows: Sequence[Mapping[str, Any]]) -> pd.DataFra
     return pd.DataFrame(records, columns=columns)
 
 
+def tidy_tables(table: pd.DataFrame) -> dict[str, pd.DataFrame]:
+    """The results table in tidy form: one observation per row.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        :func:`results_table` (one row per point, with ``util:<machine>`` and
+        ``kg:<product>`` columns).
+
+    Returns
+    -------
+    dict of str to pandas.DataFrame
+        ``sweep`` (one row per point, without the per-machine and
+        per-product columns), ``sweep_utilisation`` (``point``, ``machine``,
+        ``utilisation`` [-]) and ``sweep_kg`` (``point``, ``product``, ``kg``
+        [kg over the horizon]); points without a plan have no rows in the
+        last two.
+    """
+    util = [c for c in table.columns if str(c).startswith("util:")]
+    kg = [c for c in table.columns if str(c).startswith("kg:")]
+
+    def long(columns: list[str], key: str, value: str) -> pd.DataFrame:
+        rows = [
+            (point, str(c).split(":", 1)[1], float(v))
+            for point, *values in table[["point", *columns]].itertuples(index=False)
+            for c, v in zip(columns, values, strict=True)
+            if not pd.isna(v)
+        ]
+        return pd.DataFrame(rows, columns=["point", key, value])
+
+    return {
+        "sweep": table.drop(columns=[*util, *kg]),
+        "sweep_utilisation": long(util, "machine", "utilisation"),
+        "sweep_kg": long(kg, "product", "kg"),
+    }
+
+
 PURCHASE_COLUMNS = (
     "option",
+    "extra_kg_per_week",
+    "simple_payback_years",
+    "npv",
     "point",
     "capital",
     "running_cost_per_year",
     "base_kg_per_week",
     "option_kg_per_week",
-    "extra_kg_per_week",
     "margin_basis",
     "extra_margin_per_year",
     "net_per_year",
-    "simple_payback_years",
-    "npv",
     "years",
     "discount_rate",
     "base_bottleneck",
