@@ -180,8 +180,8 @@ def test_water_conductivity_tracks_iapws_2011(t: float) -> None:
 def test_water_conductivity_above_100_c_is_low_side(t: float) -> None:
     # Source: CoolProp 8 "Water" (IAPWS 2011) at 5 bar. Above its maximum
     # (about 102 °C) the conductivity is held there: measured 0.7 % below
-    # IAPWS at 100 °C and 1.2-1.5 % below from 110 to 150 °C. It must never be above (a high k is the unsafe
-    # side) and stay within 2 %.
+    # IAPWS at 100 °C and 1.2-1.5 % below from 110 to 150 °C. It must never be
+    # above (a high k is the unsafe side) and stay within 2 %.
     ours = float(component_property("water", "conductivity", t))
     ref = iapws_water_k(t)
     assert ours <= ref

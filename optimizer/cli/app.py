@@ -804,7 +804,7 @@ def temperature_curves(run: PlanRun) -> list[tuple[str, Any, str]]:
         loading = next(x for x in tunnel.loadings if x.name == loading_name)
         cook_min = float(table.loc[key, "cook_min"])
         residence_min = tunnel.length / speed[key]
-        factor = convert.loading_factor(loading)
+        factor = convert.loading_factor(loading, tset)
         transfer = (
             transfer_stage(tunnel.transfer, tunnel.transfer.duration)
             if tunnel.transfer is not None
