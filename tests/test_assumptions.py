@@ -32,7 +32,10 @@ def register(change: Callable[[dict[str, Any]], None] | None = None):
 
 
 def topics(items, topic: str) -> list[str]:
-    return [a.applies_to for a in items if a.topic == topic]
+    """The subjects of ``topic``'s items (a merged item names several, comma-separated)."""
+    return [
+        name.split(" (")[0] for a in items if a.topic == topic for name in a.applies_to.split(", ")
+    ]
 
 
 def _product(data: dict[str, Any], name: str) -> dict[str, Any]:
@@ -222,3 +225,67 @@ def test_dwell_notes_become_assumptions_with_their_direction():
     (cond,) = [a for a in items if a.topic == "condensation"]
     assert cond.direction == "longer" and cond.applies_to == "o / s"
     assert reg.dwell_assumptions(pd.DataFrame(columns=["notes"])) == []
+
+
+# ------------------------------------------------------------------ shown in the outputs
+
+SAMPLE = DEMO.parents[1] / "reports" / "sample"
+
+
+def test_demo_report_opens_its_assumptions_with_what_could_shorten_a_dwell():
+    # reports/sample is the demo's plan as it is now (tests/test_sample_report.py)
+    import html as html_lib
+    import json
+    import re
+
+    text = (SAMPLE / "report.html").read_text(encoding="utf-8")
+    body = text[text.index('data-table="assumptions"') :]
+    body = body[: body.index("</table>")]
+    rows = re.findall(
+        r"<tr><td data-value=\"([a-z]+)\">[a-z]+</td><td data-value=\"([^\"]*)\"", body
+    )
+    directions = [d for d, _ in rows]
+    assert directions and directions[0] == "shorter"
+    assert directions == sorted(directions, key=reg.DIRECTIONS.index)
+    assert [html_lib.unescape(t) for _, t in rows][:2] == ["loading factor", "loading factor"]
+    caution = text[text.index('class="caution"') : text.index("</section>")]
+    assert "chill-tunnel / full, chill-tunnel / spaced is estimated from the belt coverage" in (
+        html_lib.unescape(caution)
+    )
+    plan = json.loads((SAMPLE / "plan.json").read_text(encoding="utf-8"))
+    records = plan["tables"]["assumptions"]
+    assert len(records) == len(rows)
+    assert records[0]["topic"] == "loading factor" and records[0]["direction"] == "shorter"
+    assert (SAMPLE / "assumptions.csv").exists()
+
+
+def test_caution_names_products_without_a_largest_piece():
+    from optimizer.reporting.html import assumption_cautions
+
+    lines = assumption_cautions(reg.assumptions_table(register(_drop_largest)))
+    assert any(
+        line.startswith("No largest-piece size was given for chicken-fillet:") for line in lines
+    )
+    assert not any(
+        "largest-piece" in line for line in assumption_cautions(reg.assumptions_table(register()))
+    )
+
+
+def test_validate_lists_the_register_as_warnings_and_still_passes(capsys):
+    import json
+
+    from optimizer.cli.app import main
+
+    assert main(["validate", str(DEMO)]) == 0
+    out = capsys.readouterr()
+    lines = out.out.splitlines()
+    assert lines[0].startswith(f"{DEMO}: valid (")
+    warnings = [line for line in lines if line.startswith("warning: ")]
+    assert warnings[0].startswith("warning: loading factor (could shorten the dwell): ")
+    assert out.err == ""
+    assert main(["validate", str(DEMO), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["valid"] is True
+    assert len(data["warnings"]) == len(data["assumptions"]) == len(register())
+    assert main(["validate", str(DEMO), "--quiet"]) == 0
+    assert "warning" not in capsys.readouterr().out

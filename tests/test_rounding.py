@@ -70,3 +70,49 @@ def test_column_directions():
     assert r.safe_rounding("max_belt_speed_m_per_min") == "down"
     assert r.safe_rounding("belt_speed_m_per_min") == "down"
     assert r.safe_rounding("kg") is None
+
+
+# ----------------------------------------------------------- what the report and terminal show
+
+_UP = st.floats(min_value=0.01, max_value=2000.0, allow_nan=False)
+_DOWN = st.floats(min_value=0.001, max_value=5.0, allow_nan=False)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(_UP, _UP, _DOWN, _DOWN), min_size=1, max_size=8))
+def test_report_tables_never_show_a_dwell_below_or_a_speed_above_the_exact_value(rows):
+    # Random plan tables through the HTML report's table and the terminal's
+    # rich table: every shown cook/chill minute >= the exact value (kept in
+    # data-value), every shown belt speed <= it.
+    import html as html_lib
+    import io
+    import re
+
+    import pandas as pd
+    from rich.console import Console
+
+    from optimizer.cli.terminal import rich_table
+    from optimizer.reporting.html import HtmlReport
+
+    frame = pd.DataFrame(
+        rows, columns=["cook_min", "chill_min", "belt_speed_m_per_min", "max_belt_speed_m_per_min"]
+    )
+    report = HtmlReport("t")
+    report.table("t", frame)
+    page = report.render()
+    cells = re.findall(r'<td class="num" data-value="([^"]*)">([^<]*)</td>', page)
+    assert len(cells) == 4 * len(rows)
+    for i, (exact, shown) in enumerate(cells):
+        value, exact_value = float(html_lib.unescape(shown).replace(",", "")), float(exact)
+        if i % 4 < 2:
+            assert value >= exact_value
+        else:
+            assert value <= exact_value
+    console = Console(width=200, record=True, file=io.StringIO())
+    console.print(rich_table(frame, title="t"))
+    lines = [line for line in console.export_text().splitlines() if "│" in line]
+    assert len(lines) == len(rows)
+    for line, row in zip(lines, rows, strict=True):
+        shown = [float(c.strip().replace(",", "")) for c in line.strip("│ ").split("│")]
+        assert shown[0] >= row[0] and shown[1] >= row[1]
+        assert shown[2] <= row[2] and shown[3] <= row[3]

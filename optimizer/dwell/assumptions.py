@@ -73,6 +73,8 @@ NEAR_SATURATION = 0.9
 _SHOWN = 4
 """Subjects named in one register line before "and N more"."""
 
+_INDEX = re.compile(r"\[\d+\]")
+
 
 @dataclass(frozen=True)
 class Assumption:
@@ -415,9 +417,9 @@ def _properties(scenario: Scenario) -> list[Assumption]:
                     out.append(
                         Assumption(
                             "freezing point",
-                            product.name,
+                            f"{product.name} ({t_f:.1f} °C)",
                             f"products[{i}].freezing_point",
-                            f"{t_f:.1f} °C, estimated from composition (Pham 1996)",
+                            "estimated from composition (Pham 1996)",
                             "published",
                             "unknown",
                             f"Tunnel air down to {coldest:g} °C can freeze the surface; the "
@@ -604,7 +606,34 @@ def assumptions(scenario: Scenario, dwell: pd.DataFrame | None = None) -> tuple[
     if dwell is not None:
         items += dwell_assumptions(dwell)
     rank = {d: i for i, d in enumerate(DIRECTIONS)}
-    return tuple(sorted(items, key=lambda a: rank[a.direction]))
+    return tuple(sorted(_merged(items), key=lambda a: rank[a.direction]))
+
+
+def _merged(items: Sequence[Assumption]) -> list[Assumption]:
+    """One item per assumption that several subjects share (same topic, value, source,
+    direction and note): the subjects joined, the field with ``[i]`` for the indices."""
+    groups: dict[tuple[str, ...], list[Assumption]] = {}
+    for a in items:
+        groups.setdefault((a.topic, a.value, a.source, a.direction, a.note), []).append(a)
+    out = []
+    for group in groups.values():
+        first = group[0]
+        if len(group) == 1:
+            out.append(first)
+            continue
+        fields = list(dict.fromkeys(_INDEX.sub("[i]", a.field) for a in group))
+        out.append(
+            Assumption(
+                first.topic,
+                ", ".join(dict.fromkeys(a.applies_to for a in group)),
+                ", ".join(fields),
+                first.value,
+                first.source,
+                first.direction,
+                first.note,
+            )
+        )
+    return out
 
 
 ASSUMPTION_COLUMNS = ("direction", "topic", "applies_to", "value", "source", "field", "note")
