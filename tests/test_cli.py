@@ -50,6 +50,7 @@ PLAN_TABLES = (
     "rules",
     "dwell_used",
     "dwell_ruled_out",
+    "assumptions",
 )
 
 

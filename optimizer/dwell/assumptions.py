@@ -33,6 +33,7 @@ from typing import Any
 
 import pandas as pd
 
+from optimizer.dwell.convert import thermal_properties
 from optimizer.scenario.models import Scenario
 from thermal.convection import (
     EXTRAPOLATION_OVERSTATES,
@@ -40,7 +41,6 @@ from thermal.convection import (
     EXTRAPOLATION_UNKNOWN,
     coverage_loading_factor,
 )
-from thermal.foods import Composition, pham_freezing_point
 
 __all__ = [
     "ASSUMPTION_COLUMNS",
@@ -404,16 +404,9 @@ def _properties(scenario: Scenario) -> list[Assumption]:
                 )
             )
             if product.freezing_point is None and coldest < 0.0:
-                comp = Composition(
-                    water=c.water,
-                    protein=c.protein,
-                    fat=c.fat,
-                    carbohydrate=c.carbohydrate,
-                    fiber=c.fiber,
-                    ash=c.ash,
-                )
-                t_f = pham_freezing_point(comp)
-                if coldest < t_f:
+                # the estimate the dwell table uses (None: no freezable water)
+                t_f = thermal_properties(product).freezing_point
+                if t_f is not None and coldest < t_f:
                     out.append(
                         Assumption(
                             "freezing point",
