@@ -89,6 +89,7 @@ def test_workbook_sheets_have_units_formats_frozen_headers_and_widths(tmp_path):
             "cook_min": [25.856829780708765, 101.5],
             "belt_speed_m_per_min": [0.14687621904509623, 0.2],
             "kg": [975.1439457764636, 1500.0],
+            "used_min": [412.53, 480.0],
             "batches": [3, 12],
             "utilisation": [0.9731, 1.0],
         }
@@ -101,6 +102,7 @@ def test_workbook_sheets_have_units_formats_frozen_headers_and_widths(tmp_path):
         "cook [min]",
         "belt speed [m/min]",
         "kg",
+        "used [min]",
         "batches",
         "utilisation [%]",
     ]
@@ -108,14 +110,17 @@ def test_workbook_sheets_have_units_formats_frozen_headers_and_widths(tmp_path):
     row = {h: c for h, c in zip(headers, ws[2], strict=True)}
     # full values kept (openpyxl writes 16 significant digits; Excel shows 15), shown rounded
     assert row["cook [min]"].value == pytest.approx(25.856829780708765, rel=1e-15)
-    assert row["cook [min]"].number_format == "#,##0.0"
-    assert row["belt speed [m/min]"].number_format == "#,##0.00"
+    # dwell minutes and belt speeds are never shown rounded to nearest (could show a
+    # dwell short or a belt fast): their cells keep the general format
+    assert row["cook [min]"].number_format == "General"
+    assert row["belt speed [m/min]"].number_format == "General"
+    assert row["used [min]"].number_format == "#,##0.0"
     assert row["kg"].number_format == "#,##0"  # 1000 kg and more: whole kg
     assert row["batches"].number_format == "#,##0"
     assert row["utilisation [%]"].number_format == "0.0%" and row["utilisation [%]"].value == 0.9731
     # widths fit the shown text, not 18-character raw floats
-    width = ws.column_dimensions["B"].width
-    assert len("cook [min]") + 2 <= width < 18
+    width = ws.column_dimensions["E"].width
+    assert len("used [min]") + 2 <= width < 18
 
 
 def test_totals_are_long_form_with_unplanned_products_shown(tmp_path):

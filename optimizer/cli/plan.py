@@ -21,7 +21,7 @@ from optimizer.cli.options import (
     add_scenario_options,
     add_solve_options,
 )
-from optimizer.cli.terminal import Ui, rich_table
+from optimizer.cli.terminal import Ui, rich_table, say_assumptions
 from optimizer.planning.highs import quiet_solver_banner
 from optimizer.planning.results import SolveStatus, totals_table
 from optimizer.planning.run import PlanRun, solve_run
@@ -99,6 +99,7 @@ def plan_summary(run: PlanRun, ui: Ui) -> None:
     """Print the plan's summary and its tables readably."""
     r = run.result
     ui.say(run.summary())
+    say_assumptions(ui, run.tables.get("assumptions"))
     if r.status.has_plan:
         wide = totals_table(r, run.inputs).reset_index()
         ui.say(rich_table(wide, title="kg per product and shift"))

@@ -8,10 +8,19 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from optimizer.planning.rounding import (
+    MINUTES_DECIMALS,
+    SPEED_DECIMALS,
+    minutes_up,
+    safe_rounding,
+    speed_down,
+)
+
 __all__ = [
     "CODE_WORDS",
     "COLUMN_LABELS",
     "column_decimals",
+    "display_decimals",
     "exact_text",
     "format_cell",
     "is_missing",
@@ -94,7 +103,19 @@ CODE_WORDS = {
 """Plain words shown for the codes a table cell may hold (the files keep the codes)."""
 
 
-def format_cell(value: Any, decimals: int = 2) -> str:
+def display_decimals(column: str, values: pd.Series) -> int:
+    """Decimals to show for a column: the safe-rounding resolution for dwell
+    minutes and belt speeds (:mod:`optimizer.planning.rounding`, as on the
+    floor sheet), else :func:`column_decimals`."""
+    direction = safe_rounding(str(column))
+    if direction == "up":
+        return MINUTES_DECIMALS
+    if direction == "down":
+        return SPEED_DECIMALS
+    return column_decimals(values)
+
+
+def format_cell(value: Any, decimals: int = 2, rounding: str | None = None) -> str:
     """Readable text for one table cell.
 
     Parameters
@@ -103,6 +124,10 @@ def format_cell(value: Any, decimals: int = 2) -> str:
         Cell value.
     decimals : int
         Decimals for floats.
+    rounding : {"up", "down", None}
+        Safe-side rounding of a float (:func:`optimizer.planning.rounding.safe_rounding`
+        of its column): ``"up"`` for minutes a product must stay, ``"down"``
+        for belt speeds; None rounds to nearest.
 
     Returns
     -------
@@ -121,6 +146,10 @@ def format_cell(value: Any, decimals: int = 2) -> str:
         number = float(value)
         if math.isinf(number):
             return "∞" if number > 0 else "−∞"
+        if rounding == "up":
+            number = minutes_up(number, decimals)
+        elif rounding == "down":
+            number = speed_down(number, decimals)
         return f"{number:,.{decimals}f}"
     if isinstance(value, str):
         return CODE_WORDS.get(value, value)

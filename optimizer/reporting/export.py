@@ -40,6 +40,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from optimizer.planning.rounding import safe_rounding
 from optimizer.reporting.cells import column_decimals
 
 __all__ = [
@@ -456,12 +457,19 @@ def header_text(column: Any) -> str:
 def display_format(column: str, values: pd.Series) -> str | None:
     """Excel number format for a numeric column (None: leave as it is).
 
-    Fractions in :data:`PERCENT_COLUMNS` show as percentages; floats get a
+    Dwell minutes and belt speeds (columns with a safe-side rounding,
+    :func:`optimizer.planning.rounding.safe_rounding`) get none, since a
+    format rounds to nearest. Fractions in :data:`PERCENT_COLUMNS` show as
+    percentages; floats get a
     thousands separator and the decimals their size needs (none for whole
     numbers and values of 1000 and more, one from 10, two from 0.1, four
     below); the cell keeps the full value.
     """
     if pd.api.types.is_bool_dtype(values) or not pd.api.types.is_numeric_dtype(values):
+        return None
+    if safe_rounding(column) is not None:
+        # a display format rounds to nearest and could show a dwell short or a belt
+        # fast: minutes and speeds keep Excel's general format (their full value)
         return None
     if column in PERCENT_COLUMNS:
         return "0.0%"
