@@ -428,12 +428,61 @@ def test_validate_counts_in_words(capsys):
 
 
 def test_codes_are_shown_in_words_and_kept_in_files():
-    from optimizer.reporting.cells import CODE_WORDS, format_cell
+    from optimizer.reporting.cells import CODE_WORDS, cell_text
 
-    assert format_cell("exit_core_max") == "core temperature at the tunnel exit"
-    assert format_cell("feasible_with_gap") == "feasible, not proven optimal"
-    assert format_cell("chicken-fillet") == "chicken-fillet"
+    assert cell_text("chill_binding", "exit_core_max") == "core temperature at the tunnel exit"
+    assert cell_text("status", "feasible_with_gap") == "feasible, not proven optimal"
+    assert cell_text("product", "chicken-fillet") == "chicken-fillet"
+    assert cell_text("field", "hold") == "hold"  # only code columns are translated
     assert all("_" not in words for words in CODE_WORDS.values())
+
+
+def test_report_tables_show_binding_clauses_in_words_and_keep_the_code():
+    import pandas as pd
+
+    from optimizer.reporting.html import HtmlReport
+
+    report = HtmlReport("t")
+    report.section("s")
+    report.table("dwell_used", pd.DataFrame({"chill_binding": ["exit_core_max"]}))
+    page = report.render()
+    assert 'data-value="exit_core_max">core temperature at the tunnel exit<' in page
+
+
+# -- defect 4: validate lists every problem in one pass -------------------------------
+
+
+def test_validate_lists_every_problem_with_what_a_shape_needs():
+    from optimizer.scenario.models import scenario_from_dict
+
+    data = yaml.safe_load((CONFIGS / "demo.yaml").read_text(encoding="utf-8"))
+    del data["products"][0]["geometry"]["length"]
+    data["products"][0]["cook_rule"] = "fda-poultry-typo"
+    data["products"][1]["cook_rule"] = "nope-rule"
+    with pytest.raises(ScenarioError) as err:
+        scenario_from_dict(data, "hand-written.yaml")
+    lines = str(err.value).splitlines()[1:]
+    assert "products[0].geometry.length: required field is missing; a slab needs " in (
+        "\n".join(lines)
+    )
+    assert any(line.startswith("products[0].cook_rule: 'fda-poultry-typo'") for line in lines)
+    assert any("did you mean 'fda-food-code-2022-poultry'" in line for line in lines)
+    assert any(line.startswith("products[1].cook_rule: 'nope-rule'") for line in lines)
+
+
+def test_rules_command_lists_shipped_rules_and_rule_fields(capsys):
+    import json
+
+    from optimizer.cli.app import main
+    from optimizer.scenario.models import builtin_rules
+
+    assert main(["rules", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert [r["name"] for r in data["rules"]] == sorted(builtin_rules())
+    assert all(r["source"] and r["requirement"] for r in data["rules"])
+    fields = {(f["kind"], f["field"]) for f in data["fields"]}
+    assert {("cook", "core_temperature"), ("chill", "steps"), ("freeze", "within")} <= fields
+    assert all(f["meaning"] for f in data["fields"])
 
 
 def test_loadings_that_cool_alike_are_named_once():

@@ -21,13 +21,16 @@ Subcommands
     What-if study (:mod:`optimizer.studies.study`): one plan per point, purchases priced.
 ``schema``
     JSON Schema of scenario files, for editors that check YAML/JSON.
+``rules``
+    The shipped rule sets (names, requirements, sources) and the fields of a rule.
 
 Exit codes
 ----------
 0
     Done.
 1
-    No feasible plan; the shortfall diagnosis is printed.
+    No plan: none meets the orders (the shortfall diagnosis is printed), or the
+    time limit ran out before any plan was found.
 2
     Bad input (scenario file, option): one line per problem on stderr, no
     traceback, nothing written.
@@ -49,7 +52,7 @@ import warnings
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 
-from optimizer.cli import capacity, compare, dwell, plan, schema, sweep, validate
+from optimizer.cli import capacity, compare, dwell, plan, rules, schema, sweep, validate
 from optimizer.cli.common import (
     EXIT_BAD_INPUT,
     EXIT_INTERNAL,
@@ -76,6 +79,7 @@ examples:
   corepace compare configs/demo.yaml other.yaml
   corepace sweep study.yaml --out reports/what-if
   corepace schema > scenario.schema.json
+  corepace rules
 
 every command: --help for its options; --quiet, --json; --out DIR where files are written.
 
@@ -99,7 +103,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
 
-    for command in (validate, dwell, plan, capacity, compare, sweep, schema):
+    for command in (validate, dwell, plan, capacity, compare, sweep, schema, rules):
         command.add_parser(sub)
     return parser
 

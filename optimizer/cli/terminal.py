@@ -25,7 +25,7 @@ from rich.table import Table
 
 from optimizer.planning.rounding import format_minutes, format_speed, safe_rounding
 from optimizer.reporting import export
-from optimizer.reporting.cells import COLUMN_LABELS, display_decimals, format_cell
+from optimizer.reporting.cells import COLUMN_LABELS, cell_text, display_decimals
 
 __all__ = ["Ui", "render_dwell_table", "rich_table", "say_assumptions"]
 
@@ -146,9 +146,13 @@ def rich_table(table: pd.DataFrame, *, title: str) -> Table:
     for c in table.columns:
         label = COLUMN_LABELS.get(str(c), str(c).replace("_", " "))
         out.add_column(label, justify="right" if numeric[c] else "left")
+    columns = list(table.columns)
     for row in table.itertuples(index=False, name=None):
         out.add_row(
-            *(format_cell(v, d, w) for v, d, w in zip(row, decimals, rounding, strict=True))
+            *(
+                cell_text(c, v, d, w)
+                for c, v, d, w in zip(columns, row, decimals, rounding, strict=True)
+            )
         )
     return out
 

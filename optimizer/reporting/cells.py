@@ -17,8 +17,10 @@ from optimizer.planning.rounding import (
 )
 
 __all__ = [
+    "CODE_COLUMNS",
     "CODE_WORDS",
     "COLUMN_LABELS",
+    "cell_text",
     "column_decimals",
     "display_decimals",
     "exact_text",
@@ -133,8 +135,7 @@ def format_cell(value: Any, decimals: int = 2, rounding: str | None = None) -> s
     -------
     str
         ``"–"`` for missing values, ``"yes"``/``"no"`` for booleans, numbers
-        with thousands separators, the words of :data:`CODE_WORDS` for a
-        code, everything else as ``str``.
+        with thousands separators, everything else as ``str``.
     """
     if is_missing(value):
         return "–"
@@ -151,9 +152,18 @@ def format_cell(value: Any, decimals: int = 2, rounding: str | None = None) -> s
         elif rounding == "down":
             number = speed_down(number, decimals)
         return f"{number:,.{decimals}f}"
-    if isinstance(value, str):
-        return CODE_WORDS.get(value, value)
     return str(value)
+
+
+CODE_COLUMNS = frozenset({"status", "cook_binding", "chill_binding", "binding", "objective"})
+"""Columns whose text cells hold codes from :data:`CODE_WORDS`."""
+
+
+def cell_text(column: Any, value: Any, decimals: int = 2, rounding: str | None = None) -> str:
+    """:func:`format_cell`, with a code in one of :data:`CODE_COLUMNS` shown in words."""
+    if isinstance(value, str) and str(column) in CODE_COLUMNS:
+        return CODE_WORDS.get(value, value)
+    return format_cell(value, decimals, rounding)
 
 
 def exact_text(value: Any) -> str:

@@ -45,6 +45,7 @@ from optimizer.planning.rounding import safe_rounding
 from optimizer.planning.schedule import Schedule, ShiftSchedule, TunnelTimeline
 from optimizer.reporting.cells import (
     COLUMN_LABELS,
+    cell_text,
     display_decimals,
     exact_text,
     format_cell,
@@ -866,7 +867,7 @@ class HtmlReport:
                 if c in as_percent and is_number(value) and not is_missing(value):
                     shown = f"{100 * float(value):.0f} %"
                 else:
-                    shown = format_cell(value, decimals.get(c, 2), safe_rounding(str(c)))
+                    shown = cell_text(c, value, decimals.get(c, 2), safe_rounding(str(c)))
                 is_num = is_number(value) and not is_missing(value)
                 cls = ' class="num"' if is_num or numeric[c] else ""
                 cells.append(

@@ -1373,6 +1373,26 @@ def _unique(out: list[str], where: str, names: list[str]) -> None:
         seen.setdefault(n, j)
 
 
+def _raw_rule_problems(
+    items: Sequence[tuple[int, Mapping[str, Any]]],
+    rules: Mapping[str, Any],
+    failed: set[str],
+) -> list[str]:
+    """Unknown rule set names of products that did not validate (raw mappings)."""
+    out: list[str] = []
+    library = {**builtin_rules(), **rules}
+    names = {
+        "cook": sorted(n for n, r in library.items() if isinstance(r, CookRuleSpec)),
+        "chill": sorted(n for n, r in library.items() if not isinstance(r, CookRuleSpec)),
+    }
+    for i, item in items:
+        for kind in ("cook", "chill"):
+            ref = item.get(f"{kind}_rule")
+            if isinstance(ref, str) and ref not in failed:
+                _resolve(out, f"products[{i}].{kind}_rule", ref, library, kind, names[kind])
+    return out
+
+
 def _resolve(
     out: list[str],
     where: str,
@@ -1489,7 +1509,15 @@ def _error_line(root: type[BaseModel], err: Mapping[str, Any], prefix: str = "")
             path = f"{path}.{sub}" if path else sub
         return f"{path}: {msg}" if path else msg
     if kind == "missing":
-        return f"{path}: required field is missing"
+        model = _model_at(root, loc)
+        needs = ""
+        if model is not None:
+            required = [f.alias or n for n, f in model.model_fields.items() if f.is_required()]
+            shape = model.model_fields.get("shape")
+            what = f"a {shape.default} needs" if shape is not None else "needs"
+            if required:
+                needs = f"; {what} {', '.join(required)}"
+        return f"{path}: required field is missing{needs}"
     if kind == "extra_forbidden":
         model = _model_at(root, loc)
         accepted = ""
@@ -1575,6 +1603,7 @@ def scenario_from_dict(
 
     parts: dict[str, list[tuple[int, Any]]] = {}
     raw_names: dict[str, set[str]] = {}
+    failed_products: list[tuple[int, Mapping[str, Any]]] = []
     models: dict[str, type[BaseModel]] = {
         "ovens": Oven,
         "tunnels": Tunnel,
@@ -1601,6 +1630,8 @@ def scenario_from_dict(
                 name = _raw_name(item)
                 if name:
                     raw_names.setdefault(section, set()).add(name)
+                if section == "products" and isinstance(item, Mapping):
+                    failed_products.append((i, item))
         parts[section] = good
 
     rules: dict[str, Any] = {}
@@ -1638,6 +1669,9 @@ def scenario_from_dict(
             problems.append(f"{key}: expected text, got {data[key]!r}")
 
     problems.extend(_cross_field_problems(parts, rules, objective, raw_names, margin, physics))
+    # a product that failed its own checks still gets its rule names checked, so one
+    # pass lists every problem
+    problems.extend(_raw_rule_problems(failed_products, rules, raw_names.get("rules", set())))
     if problems:
         raise ScenarioError(problems, source)
     try:
