@@ -28,9 +28,17 @@ def _bottleneck_json(result: PlanResult) -> dict[str, Any] | None:
     return None if bn is None else export.to_jsonable(bn)
 
 
-def plan_json(run: PlanRun, files: Sequence[Path]) -> dict[str, Any]:
-    """The machine-readable summary of a plan run (``--json``)."""
+def plan_json(
+    run: PlanRun, files: Sequence[Path], schedule: Schedule | None = None
+) -> dict[str, Any]:
+    """The machine-readable summary of a plan run (``--json`` and ``plan.json``).
+
+    With a timed schedule (``schedule``, else the one the plan carries) it
+    holds it under ``schedule`` (:func:`optimizer.reporting.schedule_files.schedule_json`).
+    """
     r = run.result
+    schedule = schedule if schedule is not None else plan_schedule(run)
+    extra = {} if schedule is None else {"schedule": schedule_json(schedule)}
     return {
         "scenario": run.path,
         "scenario_sha256": run.sha256,
@@ -50,6 +58,7 @@ def plan_json(run: PlanRun, files: Sequence[Path]) -> dict[str, Any]:
         "messages": [*r.messages, *dwell_notes(run.tables.get("dwell_used", _NONE))],
         "files": [str(p) for p in files],
         "tables": {name: export.table_records(t) for name, t in run.tables.items()},
+        **extra,
     }
 
 
@@ -113,8 +122,6 @@ def write_plan_outputs(
         written.append(
             export.atomic_write_text(target / "floor_sheet.html", sheet, protect=protect)
         )
-    data = plan_json(run, written)
-    if schedule is not None:
-        data["schedule"] = schedule_json(schedule)
+    data = plan_json(run, written, schedule)
     written.append(export.write_json(target / "plan.json", data, protect=protect))
     return written
