@@ -576,9 +576,9 @@ def calibrate(
         bounds=(lo_a, hi_a),
         method="trf",
         x_scale="jac",
-        xtol=1e-12,
-        ftol=1e-12,
-        gtol=1e-12,
+        xtol=1e-9,
+        ftol=1e-10,
+        gtol=1e-10,
         max_nfev=60,
     )
     x_hat = sol.x

@@ -42,7 +42,7 @@ the demo products)."""
 DEFAULT_CELLS = {1: 16, 2: 12, 3: 8}
 """Cells per direction, centre to surface, by number of directions [-]."""
 
-MAX_SEGMENTS = 40
+MAX_SEGMENTS = 24
 """Most air segments a run is cut into [-]."""
 
 MERGE_K = 0.25
