@@ -61,8 +61,9 @@ def test_noise_free_log_from_the_model_recovers_h_within_0_01_percent(tmp_path):
     log = read_log(_write_log(tmp_path / "run.csv", times, list(y), air))
     fit = calibrate(log, SLAB, PROPS, **COARSE)
     assert fit.h.value == pytest.approx(32.0, rel=1e-4)
-    assert fit.h.low <= 32.0 <= fit.h.high
-    assert fit.h.boot_low is not None and fit.h.boot_low <= 32.0 * (1 + 1e-4)
+    # without noise both intervals shrink to the estimate
+    assert fit.h.high / fit.h.low < 1 + 1e-5
+    assert fit.h.boot_low is not None and fit.h.boot_high / fit.h.boot_low < 1 + 1e-5
     assert fit.rms < 1e-3
     assert [p.channel for p in fit.probes] == ["core 1", "core 2", "core 3"]
     assert fit.h.unit == "W/(m² K)"

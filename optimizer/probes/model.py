@@ -34,15 +34,15 @@ __all__ = [
     "probe_temperatures",
 ]
 
-DEFAULT_STEPS = 80
+DEFAULT_STEPS = 60
 """Time steps over a whole run, shared among the air segments by duration [-]
-(second-order steps; with 80 the core is within about 0.01 K of a fine run for
+(second-order steps; with 60 the core is within about 0.01 K of a fine run for
 the demo products)."""
 
 DEFAULT_CELLS = {1: 16, 2: 12, 3: 8}
 """Cells per direction, centre to surface, by number of directions [-]."""
 
-MAX_SEGMENTS = 24
+MAX_SEGMENTS = 16
 """Most air segments a run is cut into [-]."""
 
 MERGE_K = 0.25
