@@ -21,6 +21,7 @@ sample: $(STAMP)
 	SOURCE_DATE_EPOCH=1767225600 $(VENV)/bin/corepace plan configs/demo.yaml --out reports/sample --quiet
 
 test: $(STAMP)
+	.ci/chromium
 	$(PY) -m pytest -q
 
 lint: $(STAMP)

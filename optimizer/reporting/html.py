@@ -122,11 +122,22 @@ code { font-size: .88em; }
   dl.kv { grid-template-columns: 1fr; }
   dl.kv dd { margin-bottom: .3rem; }
 }
+figure.plot { overflow-x: auto; }
+@media (max-width: 48rem) {
+  /* a plot is never shrunk below the width its smallest text needs: it scrolls */
+  figure.plot img { min-width: var(--plot-min-width, 0); max-width: none; width: 100%; }
+}
+@page { size: A4; margin: 12mm; }
 @media print {
   body { font-size: 10.5pt; }
   main { max-width: none; padding: 0; }
   nav.toc { display: none; }
-  .scroll { overflow: visible; }
+  .scroll, figure.plot { overflow: visible; }
+  figure.plot img { min-width: 0; max-width: 100%; }
+  table { font-size: 7.5pt; width: 100%; }
+  th, td { padding: .15rem .25rem; }
+  th { white-space: normal; overflow-wrap: anywhere; }
+  td { overflow-wrap: anywhere; }
   table, figure, .caution, .note { break-inside: avoid; page-break-inside: avoid; }
   h2, h3 { break-after: avoid; page-break-after: avoid; }
   h2.newpage { break-before: page; page-break-before: always; }
@@ -219,7 +230,45 @@ def _exact(value: Any) -> str:
 # ---------------------------------------------------------------------------
 
 
-def figure_png(fig: Figure, dpi: int = 130) -> bytes:
+FIGURE_DPI = 130
+"""Resolution of the plots embedded in reports [dots per inch]."""
+
+MIN_TEXT_PX = 9.0
+"""Smallest text a report shows, in CSS pixels; plots keep their text at least this size."""
+
+
+def smallest_text_px(fig: Figure, dpi: float = FIGURE_DPI) -> float | None:
+    """Size of the smallest visible text in a figure, in pixels of its PNG.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure.
+    dpi : float
+        Resolution it is rendered at [dots per inch].
+
+    Returns
+    -------
+    float or None
+        Font size [px] (points times ``dpi / 72``); None when the figure has
+        no text.
+    """
+    from matplotlib.text import Text
+
+    sizes = [
+        t.get_fontsize() for t in fig.findobj(Text) if t.get_visible() and t.get_text().strip()
+    ]
+    return min(sizes) * dpi / 72.0 if sizes else None
+
+
+def png_width(png: bytes) -> int:
+    """Width of a PNG image [px], read from its header."""
+    if png[:8] != b"\x89PNG\r\n\x1a\n":
+        raise ValueError("png: not a PNG file")
+    return int.from_bytes(png[16:20], "big")
+
+
+def figure_png(fig: Figure, dpi: int = FIGURE_DPI) -> bytes:
     """Render a matplotlib figure to PNG bytes.
 
     Parameters
@@ -446,7 +495,7 @@ def temperature_figure(curves: CurveSet) -> Figure:
                 ha="center",
                 va="top",
                 rotation=90,
-                fontsize=6.5,
+                fontsize=7.5,
                 color=MUTED,
             )
     ax.set_ylim(low, high)
@@ -476,7 +525,9 @@ class TimelineBar:
         Colour group (e.g. the product or the air setting); bars of one group
         share a colour.
     kind : str
-        ``"work"`` (solid), ``"setup"`` (hatched: load, unload, changeover).
+        ``"work"`` (solid), ``"setup"`` (hatched: load, unload, changeover),
+        ``"stop"`` (grey, a planned stop) or ``"drain"`` (light: the belt runs
+        on until the last piece has left).
     """
 
     machine: str
@@ -529,7 +580,17 @@ def timeline_figure(
             continue
         width = max(bar.end - bar.start, 0.0)
         face = colour.get(bar.group, ACCENT)
-        if bar.kind == "setup":
+        if bar.kind in ("stop", "drain"):
+            ax.barh(
+                y,
+                width,
+                left=bar.start,
+                height=0.6 if bar.kind == "stop" else 0.3,
+                color="#b9c0c6" if bar.kind == "stop" else "#dde3e6",
+                edgecolor=MUTED,
+                linewidth=0.5,
+            )
+        elif bar.kind == "setup":
             ax.barh(
                 y,
                 width,
@@ -552,7 +613,7 @@ def timeline_figure(
                     bar.label,
                     ha="center",
                     va="center",
-                    fontsize=7,
+                    fontsize=7.5,
                     color="white",
                     clip_on=True,
                 )
@@ -572,6 +633,10 @@ def timeline_figure(
             handles.append(
                 Patch(facecolor="white", edgecolor=MUTED, hatch="////", label="load/unload/change")
             )
+        if any(b.kind == "stop" for b in bars):
+            handles.append(Patch(facecolor="#b9c0c6", edgecolor=MUTED, label="planned stop"))
+        if any(b.kind == "drain" for b in bars):
+            handles.append(Patch(facecolor="#dde3e6", edgecolor=MUTED, label="belt emptying"))
         ax.legend(
             handles=handles,
             fontsize=7.5,
@@ -791,13 +856,22 @@ class HtmlReport:
         name : str
             Identifier written as ``data-figure``.
         """
-        png = fig if isinstance(fig, bytes) else figure_png(fig)
+        sizing = ""
+        if isinstance(fig, Figure):
+            png = figure_png(fig, dpi=FIGURE_DPI)
+            smallest = smallest_text_px(fig, FIGURE_DPI)
+            if smallest is not None:
+                # narrowest width [CSS px] at which every text in the plot stays readable
+                least = math.ceil(png_width(png) * MIN_TEXT_PX / smallest)
+                sizing = f' data-min-font-px="{smallest:.2f}" style="--plot-min-width: {least}px"'
+        else:
+            png = fig
         data = base64.b64encode(png).decode("ascii")
         self.figure_count += 1
         ident = html.escape(name or f"figure-{self.figure_count}", quote=True)
         self._add(
-            f'<figure data-figure="{ident}"><img alt="{html.escape(alt, quote=True)}" '
-            f'src="data:image/png;base64,{data}">'
+            f'<figure class="plot" data-figure="{ident}"><img alt="{html.escape(alt, quote=True)}"'
+            f'{sizing} src="data:image/png;base64,{data}">'
             f"<figcaption>{html.escape(caption)}</figcaption></figure>"
         )
 

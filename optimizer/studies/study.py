@@ -1862,7 +1862,7 @@ def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
                 ax.annotate(
                     f"{r['kg_per_week']:,.0f}",
                     (xa[r[ca]], xb[r[cb]]),
-                    fontsize=6.5,
+                    fontsize=7.5,
                     xytext=(0, 9),
                     textcoords="offset points",
                     ha="center",
