@@ -38,16 +38,21 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
+from optimizer.dwell.histories import CurveSet
+from optimizer.reporting.cells import (
+    COLUMN_LABELS,
+    column_decimals,
+    exact_text,
+    format_cell,
+    is_missing,
+    is_number,
+)
+
 __all__ = [
-    "CurveSet",
     "HtmlReport",
-    "RuleMark",
     "RunInfo",
-    "Stage",
     "TimelineBar",
-    "column_decimals",
     "figure_png",
-    "format_cell",
     "plan_report",
     "shift_timelines",
     "temperature_figure",
@@ -152,79 +157,6 @@ figure.plot { overflow-x: auto; }
 # ---------------------------------------------------------------------------
 
 
-def _is_number(value: Any) -> bool:
-    return isinstance(value, int | float | np.integer | np.floating) and not isinstance(
-        value, bool | np.bool_
-    )
-
-
-def _is_missing(value: Any) -> bool:
-    if value is None or value is pd.NA or value is pd.NaT:
-        return True
-    return isinstance(value, float | np.floating) and math.isnan(float(value))
-
-
-def column_decimals(values: pd.Series) -> int:
-    """Decimals to show for a numeric column: none for whole numbers, fewer for large ones."""
-    numbers = pd.to_numeric(values, errors="coerce").astype(float)
-    finite = numbers[np.isfinite(numbers)]
-    if finite.empty:
-        return 1
-    if np.allclose(finite, np.round(finite)):
-        return 0
-    peak = float(np.max(np.abs(finite)))
-    if peak >= 1000:
-        return 0
-    if peak >= 10:
-        return 1
-    if peak >= 0.1:
-        return 2
-    return 4
-
-
-def format_cell(value: Any, decimals: int = 2) -> str:
-    """Readable text for one table cell.
-
-    Parameters
-    ----------
-    value : Any
-        Cell value.
-    decimals : int
-        Decimals for floats.
-
-    Returns
-    -------
-    str
-        ``"–"`` for missing values, ``"yes"``/``"no"`` for booleans, numbers
-        with thousands separators, everything else as ``str``.
-    """
-    if _is_missing(value):
-        return "–"
-    if isinstance(value, bool | np.bool_):
-        return "yes" if value else "no"
-    if isinstance(value, int | np.integer):
-        return f"{int(value):,}"
-    if isinstance(value, float | np.floating):
-        number = float(value)
-        if math.isinf(number):
-            return "∞" if number > 0 else "−∞"
-        return f"{number:,.{decimals}f}"
-    return str(value)
-
-
-def _exact(value: Any) -> str:
-    """Full-precision text of a cell for the ``data-value`` attribute."""
-    if _is_missing(value):
-        return ""
-    if isinstance(value, bool | np.bool_):
-        return "true" if value else "false"
-    if isinstance(value, int | np.integer):
-        return str(int(value))
-    if isinstance(value, float | np.floating):
-        return repr(float(value))
-    return str(value)
-
-
 # ---------------------------------------------------------------------------
 # Figures
 # ---------------------------------------------------------------------------
@@ -296,85 +228,6 @@ def _style_axes(ax: Any) -> None:
     ax.tick_params(colors=INK, labelsize=8.5)
     ax.grid(True, color="#e3e6e8", linewidth=0.7)
     ax.set_axisbelow(True)
-
-
-@dataclass(frozen=True)
-class Stage:
-    """A stretch of a temperature history (oven, transfer, a tunnel zone).
-
-    Parameters
-    ----------
-    name : str
-        Label drawn above the stretch.
-    start : float
-        Start time [min].
-    end : float
-        End time [min].
-    air_temperature : float or None
-        Air temperature in the stage [°C], drawn as a thin line when given.
-    """
-
-    name: str
-    start: float
-    end: float
-    air_temperature: float | None = None
-
-
-@dataclass(frozen=True)
-class RuleMark:
-    """A rule drawn on a temperature plot: a target temperature, and a window.
-
-    Parameters
-    ----------
-    label : str
-        Text of the rule, e.g. ``"core ≥ 72 °C"`` or ``"core ≤ 21 °C within 120 min"``.
-    temperature : float
-        Target temperature [°C], drawn as a dashed horizontal line.
-    start : float or None
-        Time from which the rule's clock runs [min] (None: from the start).
-    deadline : float or None
-        Time by which the target must be met [min]; drawn as a vertical line
-        and the window shaded.
-    met_at : float or None
-        Time the model reaches the target [min], marked with a point.
-    """
-
-    label: str
-    temperature: float
-    start: float | None = None
-    deadline: float | None = None
-    met_at: float | None = None
-
-
-@dataclass(frozen=True)
-class CurveSet:
-    """Temperature histories of one product through oven and tunnel.
-
-    Parameters
-    ----------
-    title : str
-        Figure title (product, oven setting, tunnel setting).
-    time_min : sequence of float
-        Times [min] from oven loading.
-    core : sequence of float
-        Core (slowest point) temperature [°C] at those times.
-    surface : sequence of float
-        Surface temperature [°C] at those times.
-    stages : sequence of Stage
-        Stage boundaries to draw.
-    rules : sequence of RuleMark
-        Targets and windows to draw.
-    mean : sequence of float or None
-        Mass-mean temperature [°C], drawn thin when given.
-    """
-
-    title: str
-    time_min: Sequence[float]
-    core: Sequence[float]
-    surface: Sequence[float]
-    stages: Sequence[Stage] = ()
-    rules: Sequence[RuleMark] = ()
-    mean: Sequence[float] | None = None
 
 
 def temperature_figure(curves: CurveSet) -> Figure:
@@ -815,14 +668,14 @@ class HtmlReport:
         for row in frame.itertuples(index=False, name=None):
             cells = []
             for c, value in zip(frame.columns, row, strict=True):
-                if c in as_percent and _is_number(value) and not _is_missing(value):
+                if c in as_percent and is_number(value) and not is_missing(value):
                     shown = f"{100 * float(value):.0f} %"
                 else:
                     shown = format_cell(value, decimals.get(c, 2))
-                is_num = _is_number(value) and not _is_missing(value)
+                is_num = is_number(value) and not is_missing(value)
                 cls = ' class="num"' if is_num or numeric[c] else ""
                 cells.append(
-                    f'<td{cls} data-value="{html.escape(_exact(value), quote=True)}">'
+                    f'<td{cls} data-value="{html.escape(exact_text(value), quote=True)}">'
                     f"{html.escape(shown)}</td>"
                 )
             body_rows.append("<tr>" + "".join(cells) + "</tr>")
@@ -1119,28 +972,6 @@ def utilisation_figure(utilisation: pd.DataFrame) -> Figure:
     ax.legend(fontsize=7.5, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     fig.tight_layout()
     return fig
-
-
-COLUMN_LABELS = {
-    "cook_min": "cook [min]",
-    "cycle_min": "cycle [min]",
-    "minutes": "minutes",
-    "kg": "kg",
-    "belt_speed_m_per_min": "belt speed [m/min]",
-    "max_belt_speed_m_per_min": "fastest belt [m/min]",
-    "oven_setting": "oven setting",
-    "tunnel_setting": "tunnel setting",
-    "used_min": "used [min]",
-    "changeover_min": "changeover [min]",
-    "available_min": "available [min]",
-    "utilisation": "utilisation",
-    "per_hour": "per extra hour",
-    "chill_min": "chill [min]",
-    "heat_in_kj_per_kg": "heat in [kJ/kg]",
-    "heat_out_kj_per_kg": "heat out [kJ/kg]",
-    "total_slack": "total slack",
-    "smallest_slack": "smallest slack",
-}
 
 
 def _kv_number(value: float | None, unit: str, decimals: int = 1) -> str:
