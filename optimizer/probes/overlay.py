@@ -93,7 +93,12 @@ def air_target(
             ) from None
         if transfer or zone is not None:
             raise TargetError("--zone/--transfer: only for a tunnel")
-        if setting is None and len(unit.settings) == 1:
+        if setting is None:
+            if len(unit.settings) > 1:
+                raise TargetError(
+                    f"--setting: oven {oven!r} has {len(unit.settings)} settings; name one: "
+                    f"{_names(unit.settings)}"
+                )
             setting = unit.settings[0].name
         found = next((s for s in unit.settings if s.name == setting), None)
         if found is None:
@@ -115,7 +120,12 @@ def air_target(
         if t.transfer is None:
             raise TargetError(f"--transfer: tunnel {tunnel!r} has no transfer stage")
         return AirTarget(f"tunnels.{tunnel}.transfer", f"{tunnel} / transfer", t.transfer)
-    if setting is None and len(t.settings) == 1:
+    if setting is None:
+        if len(t.settings) > 1:
+            raise TargetError(
+                f"--setting: tunnel {tunnel!r} has {len(t.settings)} settings; name one: "
+                f"{_names(t.settings)}"
+            )
         setting = t.settings[0].name
     ts = next((s for s in t.settings if s.name == setting), None)
     if ts is None:
