@@ -17,7 +17,8 @@ demo: $(STAMP)
 	$(VENV)/bin/corepace calibrate configs/demo.yaml configs/logs/trial-chicken-roast-180.csv \
 	  --product chicken-fillet --oven rack-oven-1 --setting roast-180 --fit-offset \
 	  --out reports/demo/calibration
-	$(VENV)/bin/corepace verify configs/demo.yaml configs/logs/run-chicken-roast-180.csv \
+	$(VENV)/bin/corepace verify reports/demo/calibration/demo-calibrated.yaml \
+	  configs/logs/run-chicken-roast-180.csv \
 	  --product chicken-fillet --stage cook --oven rack-oven-1 --setting roast-180 \
 	  --out reports/demo/record
 

@@ -172,6 +172,7 @@ def test_bootstrap_over_probes_sees_piece_to_piece_spread(tmp_path):
     assert fit.h.boot_high / fit.h.boot_low > 1.05
     assert (fit.h.boot_high - fit.h.boot_low) > 3 * (fit.h.high - fit.h.low)
     assert any("residuals follow a trend" in w for w in fit.warnings)
+    assert any("quote the bootstrap interval" in w for w in fit.warnings)
 
 
 def test_warnings_name_what_the_run_cannot_identify(tmp_path):

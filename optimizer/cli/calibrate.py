@@ -75,7 +75,8 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         "setting to a logged trial run by least squares on the core probes, with 95 % "
         "intervals (Jacobian, and a bootstrap over probes), and write it as a scenario "
         "overlay with its provenance. Optionally also fit a conductivity factor and the "
-        "probes' offset from the centre.",
+        "probes' offset from the centre. For a tunnel setting with several zones, fit each "
+        "zone's part of the log (--window) to its --zone.",
         epilog=EPILOG,
         formatter_class=Formatter,
     )

@@ -726,6 +726,14 @@ def _warnings(
             f"residuals follow a trend (lag-1 correlation {lag1:.2f}): the model misses "
             "something in this run, and the Jacobian interval is likely too narrow"
         )
+    if h.boot_low is not None and h.boot_high is not None:
+        ratio = math.log(h.boot_high / h.boot_low) / max(math.log(h.high / h.low), 1e-300)
+        if ratio > 3.0 and h.boot_high / h.boot_low > 1.01:
+            out.append(
+                f"the probes differ more than their reading noise explains: the bootstrap "
+                f"interval ({h.boot_low:.4g} to {h.boot_high:.4g}) is {ratio:.0f} times as wide "
+                "as the Jacobian one; quote the bootstrap interval"
+            )
     if boot and prob.measured.shape[0] < 5:
         out.append(f"bootstrap over only {prob.measured.shape[0]} probes: its interval is coarse")
     return out

@@ -52,6 +52,23 @@ def _names(items: Any) -> str:
     return ", ".join(str(i.name) for i in items) or "none"
 
 
+def _setting(kind: str, unit: str, settings: Any, name: str | None) -> Any:
+    """The setting ``name`` of an oven or tunnel (its only one when None)."""
+    if name is None:
+        if len(settings) > 1:
+            raise TargetError(
+                f"--setting: {kind} {unit!r} has {len(settings)} settings; name one: "
+                f"{_names(settings)}"
+            )
+        return settings[0]
+    found = next((s for s in settings if s.name == name), None)
+    if found is None:
+        raise TargetError(
+            f"--setting: {kind} {unit!r} has no setting {name!r}; settings: {_names(settings)}"
+        )
+    return found
+
+
 def air_target(
     scenario: Scenario,
     *,
@@ -93,19 +110,7 @@ def air_target(
             ) from None
         if transfer or zone is not None:
             raise TargetError("--zone/--transfer: only for a tunnel")
-        if setting is None:
-            if len(unit.settings) > 1:
-                raise TargetError(
-                    f"--setting: oven {oven!r} has {len(unit.settings)} settings; name one: "
-                    f"{_names(unit.settings)}"
-                )
-            setting = unit.settings[0].name
-        found = next((s for s in unit.settings if s.name == setting), None)
-        if found is None:
-            raise TargetError(
-                f"--setting: oven {oven!r} has no setting {setting!r}; settings: "
-                f"{_names(unit.settings)}"
-            )
+        found = _setting("oven", oven, unit.settings, setting)
         return AirTarget(f"ovens.{oven}.settings.{found.name}", f"{oven} / {found.name}", found)
     assert tunnel is not None
     try:
@@ -120,19 +125,7 @@ def air_target(
         if t.transfer is None:
             raise TargetError(f"--transfer: tunnel {tunnel!r} has no transfer stage")
         return AirTarget(f"tunnels.{tunnel}.transfer", f"{tunnel} / transfer", t.transfer)
-    if setting is None:
-        if len(t.settings) > 1:
-            raise TargetError(
-                f"--setting: tunnel {tunnel!r} has {len(t.settings)} settings; name one: "
-                f"{_names(t.settings)}"
-            )
-        setting = t.settings[0].name
-    ts = next((s for s in t.settings if s.name == setting), None)
-    if ts is None:
-        raise TargetError(
-            f"--setting: tunnel {tunnel!r} has no setting {setting!r}; settings: "
-            f"{_names(t.settings)}"
-        )
+    ts = _setting("tunnel", tunnel, t.settings, setting)
     zones = ts.zones
     if zone is None:
         if len(zones) != 1:

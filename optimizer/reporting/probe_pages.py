@@ -217,7 +217,7 @@ def record_figure(record: RunRecord) -> Figure:
             ax.plot(m, p.predicted, "--", lw=1.0, color=colour, label=f"{p.channel} (model)")
     for level, label in record.levels:
         ax.axhline(level, color=RULE_COLOUR, lw=0.8, ls=":")
-        ax.annotate(label, (m[-1], level), fontsize=7.5, color=RULE_COLOUR, ha="right", va="bottom")
+        ax.annotate(label, (m[0], level), fontsize=7.5, color=RULE_COLOUR, ha="left", va="bottom")
     ax.set_xlabel("time from the first reading [min]", color=INK)
     ax.set_ylabel("temperature [°C]", color=INK)
     ax.legend(fontsize=7.5, frameon=False, ncol=2)
