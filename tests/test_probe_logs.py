@@ -198,3 +198,27 @@ def test_ambiguous_dates_across_days_need_the_order(tmp_path):
     log = read_log(path, date_order="dmy")
     assert log.times.tolist() == [0.0, 60.0, 120.0]
     assert log.started == datetime(2026, 4, 3, 23, 59)
+
+
+def test_separate_date_and_time_columns_quoted_fields_and_oven_air(tmp_path):
+    text = (
+        'Date,Time,"Core, centre",Oven\n'
+        '14/03/2026,06:30:00,"4,0",170\n'
+        '14/03/2026,06:30:20,"4,5",171\n'
+        '14/03/2026,06:30:40,"5,5",172\n'
+    )
+    log = read_log(_write(tmp_path, text))
+    assert log.times.tolist() == [0.0, 20.0, 40.0]
+    assert log.started == datetime(2026, 3, 14, 6, 30)
+    assert log.cores[0].name == "Core, centre"
+    assert log.cores[0].values.tolist() == [4.0, 4.5, 5.5]
+    assert log.air.name == "Oven"
+    assert log.notes == ()
+
+
+def test_header_words_match_whole_words_only(tmp_path):
+    # "lamb" is not "ambient", "T1 core" is a core probe
+    text = "time [s],Lamb core,T1 core,air\n0,4,5,180\n30,5,6,180\n60,6,7,180\n"
+    log = read_log(_write(tmp_path, text))
+    assert [c.name for c in log.cores] == ["Lamb core", "T1 core"]
+    assert log.air.name == "air"

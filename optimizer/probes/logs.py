@@ -30,6 +30,7 @@ file, the line and the column.
 
 from __future__ import annotations
 
+import csv
 import hashlib
 import math
 import re
@@ -88,11 +89,15 @@ _MISSING = {
 _MISSING_TEXT = "empty, NaN, N/A, ---, OL, open or Err"
 
 _ROLE_WORDS = (
-    ("air", ("air", "ambient", "amb")),
+    ("air", ("air", "ambient")),
     ("surface", ("surface", "surf")),
     ("core", ("core", "centre", "center", "probe", "product")),
+    ("air", ("oven", "chamber", "room", "tunnel", "cabinet")),
 )
-_TIME_WORDS = ("time", "timestamp", "date", "elapsed", "zeit", "datetime")
+"""Header words of each role, tried in order (a word starts a word of the header)."""
+_TIME_WORDS = ("time", "timestamp", "date", "elapsed", "zeit", "datetime", "datum", "clock")
+_DATE_ONLY = ("date", "datum", "day")
+_CLOCK_ONLY = ("time", "clock", "zeit", "uhrzeit")
 _TIME_UNITS = {
     "s": 1.0,
     "sec": 1.0,
@@ -307,7 +312,16 @@ def _separator(header: str) -> str:
 
 
 def _split(line: str, sep: str) -> list[str]:
-    return [cell.strip().strip('"').strip() for cell in line.split(sep)]
+    """The fields of one line (quoted fields may hold the separator)."""
+    try:
+        cells = next(csv.reader([line], delimiter=sep, skipinitialspace=True))
+    except (csv.Error, StopIteration):
+        cells = line.split(sep)
+    return [cell.strip() for cell in cells]
+
+
+def _words(text: str) -> list[str]:
+    return [w for w in re.split(r"[^a-z0-9]+", text.lower()) if w]
 
 
 def _header_unit(text: str) -> tuple[str, str | None]:
@@ -351,7 +365,8 @@ def _number(cell: str, decimal_comma: bool) -> float | None:
     text = cell.strip()
     if text.lower() in _MISSING:
         return None
-    if decimal_comma:
+    if decimal_comma or (text.count(",") == 1 and "." not in text):
+        # a decimal comma (with a "," separator only inside a quoted field)
         text = text.replace(",", ".")
     if not _NUMBER.match(text):
         raise ValueError(text)
@@ -530,9 +545,9 @@ def _first_bad_date(cells: Sequence[str], lines: Sequence[int]) -> tuple[str, in
 
 
 def _role_from_header(name: str) -> str | None:
-    low = name.lower()
+    tokens = _words(name)
     for role, words in _ROLE_WORDS:
-        if any(w in low for w in words):
+        if any(t.startswith(w) for t in tokens for w in words):
             return role
     return None
 
@@ -599,11 +614,22 @@ def _find_header(
                 return k, sep, cells, bare.index(time_column)
             continue
         for i, b in enumerate(bare):
-            if any(w in b.lower() for w in _TIME_WORDS):
+            if any(t.startswith(w) for t in _words(b) for w in _TIME_WORDS):
                 return k, sep, cells, i
     first = rows[0][0] if rows else 1
     wanted = repr(time_column) if time_column else "a time column (time, timestamp, date, elapsed)"
     raise LogFileError(path, first, None, f"no header line with {wanted}; name it as an option")
+
+
+def _clock_column(bare: Sequence[str], t_idx: int) -> int | None:
+    """A separate clock-time column beside a date-only time column, or None."""
+    if not all(w in _DATE_ONLY for w in _words(bare[t_idx])):
+        return None
+    for i, b in enumerate(bare):
+        words = _words(b)
+        if i != t_idx and words and all(w in _CLOCK_ONLY for w in words):
+            return i
+    return None
 
 
 # --------------------------------------------------------------------------- read
@@ -678,7 +704,12 @@ def read_log(
     if len(set(bare)) != len(bare):
         dup = next(b for b in bare if bare.count(b) > 1)
         raise LogFileError(name, header_line, dup, "appears twice in the header")
-    roles = _assign(bare, t_idx, core, surface, air, name, header_line)
+    clock_idx = _clock_column(bare, t_idx)
+    roles = {
+        i: r
+        for i, r in _assign(bare, t_idx, core, surface, air, name, header_line).items()
+        if i != clock_idx
+    }
     if not any(r == "core" for r in roles.values()):
         raise LogFileError(
             name,
@@ -700,7 +731,7 @@ def read_log(
     if len(data) < 3:
         raise LogFileError(name, header_line, None, f"needs at least 3 readings, got {len(data)}")
     notes: list[LogNote] = []
-    ignored = [bare[i] for i in range(len(bare)) if i != t_idx and i not in roles]
+    ignored = [bare[i] for i in range(len(bare)) if i not in (t_idx, clock_idx) and i not in roles]
     if ignored:
         notes.append(
             LogNote(
@@ -725,8 +756,9 @@ def read_log(
             )
         cells_rows.append(cells)
     lines = np.array([line for line, _ in data], dtype=np.int_)
+    stamps = [c[t_idx] if clock_idx is None else f"{c[t_idx]} {c[clock_idx]}" for c in cells_rows]
     times, started, t_notes = _times(
-        [c[t_idx] for c in cells_rows],
+        stamps,
         list(lines),
         path=name,
         column=bare[t_idx],
