@@ -73,15 +73,22 @@ def test_verify_writes_the_record_and_exits_1_when_a_probe_misses(tmp_path, caps
     pulled = next(p for p in record["probes"] if p["probe"] == "core C")
     assert pulled["pulled_at_min"] == pytest.approx(28.5)
     assert "HACCP" in (out / "record.html").read_text()
-    # the same run cut at 20 min: the core is still below 74 °C
-    short = tmp_path / "short.csv"
-    short.write_text("".join(RUN.read_text().splitlines(keepends=True)[:82]))
+    # the first 20 min of the same run only: the core is still below 74 °C
     code, text, err = run(
-        capsys, "verify", DEMO, short, *OVEN, "--stage", "cook", "--out", tmp_path / "r2"
-    )
+        capsys, "verify", DEMO, RUN, *OVEN, "--stage", "cook", "--window", "0,20",
+        "--out", tmp_path / "r2",
+    )  # fmt: skip
     assert code == 1
     assert "FAIL" in text
-    assert (tmp_path / "r2" / "record.csv").exists()
+    rows = pd.read_csv(tmp_path / "r2" / "record.csv")
+    assert not rows["met"].any()
+    code, _text, err = run(
+        capsys, "verify", DEMO, RUN, *OVEN, "--stage", "cook", "--window", "40,50",
+        "--out", tmp_path / "r3",
+    )  # fmt: skip
+    assert code == EXIT_BAD_INPUT
+    assert err.strip() == "--window: holds 0 readings (40 to 50 min); needs at least 3"
+    assert not (tmp_path / "r3").exists()
 
 
 @pytest.mark.parametrize("command", ["calibrate", "verify"])

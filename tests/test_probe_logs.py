@@ -222,3 +222,16 @@ def test_header_words_match_whole_words_only(tmp_path):
     log = read_log(_write(tmp_path, text))
     assert [c.name for c in log.cores] == ["Lamb core", "T1 core"]
     assert log.air.name == "air"
+
+
+def test_part_of_a_log_counts_time_from_its_first_reading(tmp_path):
+    core = [5, 8, 11, 14, 17, 20, 178.5, 179.0, 179.4]
+    rows = [f"2026-03-14 06:{30 + i}:00,{c},180" for i, c in enumerate(core)]
+    log = read_log(_write(tmp_path, "time,core,air\n" + "\n".join(rows) + "\n"))
+    part = log.part(120.0, 480.0)
+    assert part.times.tolist() == [0.0, 60.0, 120.0, 180.0, 240.0, 300.0, 360.0]
+    assert part.started == datetime(2026, 3, 14, 6, 32)
+    assert part.cores[0].pulled_at == 240.0
+    assert part.lines.tolist() == [4, 5, 6, 7, 8, 9, 10]
+    with pytest.raises(ValueError, match="holds 1 readings"):
+        log.part(0.0, 30.0)

@@ -15,6 +15,7 @@ from optimizer.cli.probe_options import (
     add_target_options,
     log_from_args,
     log_notes,
+    minutes_pair,
     product_from_args,
     target_from_args,
 )
@@ -41,19 +42,6 @@ calibration_curves.csv; `corepace plan <scenario>-calibrated.yaml` then uses the
 fitted h. Calibrate with the largest pieces: every product in the air setting
 takes the fitted h.
 """
-
-
-def _pair(text: str) -> tuple[float, float]:
-    parts = text.split(",")
-    try:
-        lo, hi = (float(p) for p in parts)
-    except ValueError:
-        raise argparse.ArgumentTypeError(
-            f"must be two numbers LOW,HIGH such as 5,200, got {text!r}"
-        ) from None
-    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
-        raise argparse.ArgumentTypeError(f"needs finite LOW < HIGH, got {text!r}")
-    return lo, hi
 
 
 def _count(text: str) -> int:
@@ -94,11 +82,15 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         help="also fit the probes' offset from the centre (share of the half-thickness)",
     )
     g.add_argument(
-        "--h-bounds", type=_pair, metavar="LOW,HIGH", default=(1.0, 1000.0), help="[W/(m² K)]"
+        "--h-bounds",
+        type=minutes_pair,
+        metavar="LOW,HIGH",
+        default=(1.0, 1000.0),
+        help="[W/(m² K)]",
     )
     g.add_argument(
         "--window",
-        type=_pair,
+        type=minutes_pair,
         metavar="START,END",
         help="fit only this part of the log [min from its first reading]",
     )

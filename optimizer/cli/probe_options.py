@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 from typing import Any
 
 from optimizer.cli.common import BadInput
@@ -14,9 +15,24 @@ __all__ = [
     "add_log_options",
     "add_target_options",
     "log_from_args",
+    "minutes_pair",
     "product_from_args",
     "target_from_args",
 ]
+
+
+def minutes_pair(text: str) -> tuple[float, float]:
+    """Two numbers ``LOW,HIGH`` with LOW < HIGH (a window in minutes, or bounds)."""
+    parts = text.split(",")
+    try:
+        lo, hi = (float(p) for p in parts)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"must be two numbers LOW,HIGH such as 5,200, got {text!r}"
+        ) from None
+    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+        raise argparse.ArgumentTypeError(f"needs finite LOW < HIGH, got {text!r}")
+    return lo, hi
 
 
 def add_log_options(parser: argparse.ArgumentParser) -> None:

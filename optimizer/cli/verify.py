@@ -14,6 +14,7 @@ from optimizer.cli.probe_options import (
     add_target_options,
     log_from_args,
     log_notes,
+    minutes_pair,
     product_from_args,
     target_from_args,
 )
@@ -64,6 +65,13 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         required=True,
         choices=("cook", "chill"),
         help="check the product's cook rule, or its chill (or freeze) rule",
+    )
+    p.add_argument(
+        "--window",
+        type=minutes_pair,
+        metavar="START,END",
+        help="check only this part of the log [min from its first reading], e.g. the chill "
+        "after the oven",
     )
     add_target_options(p)
     add_log_options(p)
@@ -123,6 +131,11 @@ def cmd_verify(args: argparse.Namespace, ui: Ui) -> int:
     product = product_from_args(scenario, args)
     target = target_from_args(scenario, args)
     log = log_from_args(args)
+    if args.window is not None:
+        try:
+            log = log.part(args.window[0] * 60.0, args.window[1] * 60.0)
+        except ValueError as exc:
+            raise BadInput([f"--{exc}"]) from exc
     start = float(next(v for v in log.cores[0].values if math.isfinite(v)))
     if args.stage == "cook":
         rule = cook_rule(scenario.cook_rule(product), start)

@@ -35,8 +35,8 @@ import hashlib
 import math
 import re
 from collections.abc import Sequence
-from dataclasses import dataclass
-from datetime import datetime
+from dataclasses import dataclass, replace
+from datetime import datetime, timedelta
 from pathlib import Path
 
 import numpy as np
@@ -274,6 +274,41 @@ class ProbeLog:
     def duration(self) -> float:
         """Time from the first to the last sample [s]."""
         return float(self.times[-1] - self.times[0])
+
+    def part(self, start: float, end: float) -> ProbeLog:
+        """The readings from ``start`` to ``end`` [s from the first reading], times
+        counted from the first reading kept (``started`` moves with it).
+
+        Raises
+        ------
+        ValueError
+            When fewer than 3 readings fall inside.
+        """
+        keep = (self.times >= start) & (self.times <= end)
+        if keep.sum() < 3:
+            raise ValueError(
+                f"window: holds {int(keep.sum())} readings ({start / 60:g} to {end / 60:g} min); "
+                "needs at least 3"
+            )
+        t0 = float(self.times[keep][0])
+        chans = tuple(
+            Channel(
+                c.name,
+                c.role,
+                c.values[keep],
+                c.unit,
+                None if c.pulled_at is None or c.pulled_at > end else max(c.pulled_at - t0, 0.0),
+            )
+            for c in self.channels
+        )
+        started = None if self.started is None else self.started + timedelta(seconds=t0)
+        return replace(
+            self,
+            times=self.times[keep] - t0,
+            lines=self.lines[keep],
+            started=started,
+            channels=chans,
+        )
 
 
 # --------------------------------------------------------------------------- text
