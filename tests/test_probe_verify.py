@@ -143,3 +143,19 @@ def test_model_trace_beside_the_measured_one(tmp_path):
     )
     assert rec.h == 30.0
     assert "HACCP" in rec.caution
+
+
+def test_a_missed_cooling_window_is_missed_when_its_time_runs_out(tmp_path):
+    # 57 °C at 10 min, 21 °C only at 150 min: the 2 h window opened at 10 min
+    # closes unmet at 130 min (by hand); the 6 h window is met (5 °C at
+    # 150 + 16/17 x 150 = 291 min).
+    t = np.arange(0.0, 320.0 * 60.0 + 1.0, 60.0)
+    y = np.interp(t, np.array([0.0, 10.0, 150.0, 300.0]) * 60.0, [60.0, 57.0, 21.0, 4.0])
+    rule = chill_rule(builtin_rules()["fda-food-code-2022-cooling"])
+    rec = verify_run(_log(tmp_path, t, [y]), rule)
+    p = rec.probes[0]
+    assert not p.met and p.verdict.binding == "step 1"
+    assert dict(p.missed_at) == pytest.approx({"step 1": 130.0 * 60.0}, abs=0.01)
+    (row,) = [r for r in rec.rows() if r["clause"] == "step 1"]
+    assert row["missed_at_min"] == pytest.approx(130.0, abs=1e-3)
+    assert row["margin"] == pytest.approx(-20.0 * 60.0, abs=0.1)

@@ -76,6 +76,10 @@ class ProbeRecord:
         Largest |measured - predicted| over the readings [K].
     predicted_verdict : Verdict or None
         The rule on the model trace.
+    missed_at : tuple of (str, float)
+        For each missed clause, when it was missed [s]: a cooling step at the
+        end of its window (opened plus the time allowed), any other clause at
+        the end of the trace.
     """
 
     channel: str
@@ -90,6 +94,7 @@ class ProbeRecord:
     predicted: NDArray[np.float64] | None
     difference: float | None
     predicted_verdict: Verdict | None
+    missed_at: tuple[tuple[str, float], ...] = ()
 
     @property
     def met(self) -> bool:
@@ -180,6 +185,7 @@ class RunRecord:
                         "margin": _finite(c.margin),
                         "unit": c.unit,
                         "met_at_min": _minutes(c.met_at),
+                        "missed_at_min": _minutes(dict(p.missed_at).get(c.clause, math.nan)),
                         "reason": c.reason,
                         "model_met": None if m is None else m.met,
                         "model_margin": None if m is None else _finite(m.margin),
@@ -316,6 +322,7 @@ def verify_run(
                 pred,
                 diff,
                 pv,
+                _missed(rule, verdict, t, y),
             )
         )
     worst = sorted(records, key=_rank)[0]
@@ -335,6 +342,23 @@ def verify_run(
         notes=tuple(n.message for n in log.notes),
         levels=_levels(rule),
     )
+
+
+def _missed(rule, verdict: Verdict, t, y) -> tuple[tuple[str, float], ...]:
+    """When each missed clause was missed [s] (see :class:`ProbeRecord`)."""
+    steps = {f"step {i + 1}": s for i, s in enumerate(getattr(rule, "steps", ()))}
+    out = []
+    for c in verdict.clauses:
+        if c.met:
+            continue
+        when = float(t[-1])
+        step = steps.get(c.clause)
+        if step is not None:
+            opened, _ = step.window(t, y)
+            if math.isfinite(opened):
+                when = min(opened + step.within, when)
+        out.append((c.clause, when))
+    return tuple(out)
 
 
 def _levels(rule: CookRule | ChillRule | FreezeRule) -> tuple[tuple[float, str], ...]:
