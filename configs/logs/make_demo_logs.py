@@ -53,7 +53,9 @@ def _air(times: np.ndarray, set_point: float, rng: np.random.Generator) -> np.nd
 
 
 def _cores(piece, times, air, h, starts, offsets, rng):
-    segs = air_segments(times, air)
+    # the grid, steps and air segments are fixed here, not the library's defaults,
+    # so that re-running the script gives the same files
+    segs = air_segments(times, air, max_segments=60, merge_k=0.05)
     clean = probe_temperatures(
         piece.geometry,
         piece.properties,
