@@ -179,6 +179,9 @@ class Calibration:
         Start and end of the fitted part of the log [s from its first reading].
     air : AirSegments
         The air history used.
+    air_logged : ndarray or None
+        The air readings at the probes' times [°C] (None when the log has no
+        air channel).
     log_path, log_sha256 : str
         The log file and the SHA-256 of its bytes.
     started : str or None
@@ -200,6 +203,7 @@ class Calibration:
     warnings: tuple[str, ...]
     window: tuple[float, float]
     air: AirSegments
+    air_logged: NDArray[np.float64] | None
     log_path: str
     log_sha256: str
     started: str | None
@@ -644,6 +648,7 @@ def calibrate(
         warnings=tuple(warnings),
         window=(float(log.times[idx[0]]), float(log.times[idx[-1]])),
         air=prob.air,
+        air_logged=None if log.air is None else log.air.values[idx],
         log_path=log.path,
         log_sha256=log.sha256,
         started=None if log.started is None else log.started.isoformat(sep=" "),

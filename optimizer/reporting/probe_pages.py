@@ -79,8 +79,18 @@ def calibration_figure(fit: Calibration) -> Figure:
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [3, 1.2]})
     t_air = np.concatenate([[0.0], np.cumsum(fit.air.durations)])
     air_steps = np.concatenate([fit.air.temperatures, fit.air.temperatures[-1:]])
+    if fit.air_logged is not None and fit.probes:
+        ok = np.isfinite(fit.air_logged)
+        top.plot(
+            _minutes(fit.probes[0].times)[ok],
+            fit.air_logged[ok],
+            color=AIR_COLOUR,
+            lw=0.7,
+            alpha=0.6,
+            label="air (logged)",
+        )
     top.step(
-        _minutes(t_air), air_steps, where="post", color=AIR_COLOUR, lw=1.2, label="air (model)"
+        _minutes(t_air), air_steps, where="post", color=AIR_COLOUR, lw=1.4, label="air (model)"
     )
     for k, p in enumerate(fit.probes):
         colour = BAR_COLOURS[k % len(BAR_COLOURS)]
