@@ -235,3 +235,14 @@ def test_part_of_a_log_counts_time_from_its_first_reading(tmp_path):
     assert part.lines.tolist() == [4, 5, 6, 7, 8, 9, 10]
     with pytest.raises(ValueError, match="holds 1 readings"):
         log.part(0.0, 30.0)
+
+
+def test_units_without_brackets_and_brackets_that_are_names(tmp_path):
+    text = "Elapsed min;Core (oven 1) °F;core C;Air_degF\n0;41;5;320\n1;50;6;338\n2;59;7;356\n"
+    log = read_log(_write(tmp_path, text))
+    assert log.times.tolist() == [0.0, 60.0, 120.0]
+    # "°F" after the name is a unit, "(oven 1)" is part of the name, "C" is a probe's name
+    assert [c.name for c in log.cores] == ["Core (oven 1)", "core C"]
+    assert log.cores[0].values == pytest.approx([5.0, 10.0, 15.0])
+    assert log.cores[1].values.tolist() == [5.0, 6.0, 7.0]
+    assert log.air.values == pytest.approx([160.0, 170.0, 180.0])

@@ -134,6 +134,9 @@ _DATE_FORMATS = {
 _CLOCK_FORMATS = ("%H:%M:%S.%f", "%H:%M:%S", "%H:%M")
 _NUMBER = re.compile(r"^[+-]?(\d+([.]\d*)?|[.]\d+)([eE][+-]?\d+)?$")
 _UNIT_IN_HEADER = re.compile(r"^(?P<name>.*?)\s*[\[(](?P<unit>[^\])]*)[\])]\s*$")
+_UNIT_AT_END = re.compile(
+    r"^(?P<name>.*?)(?:\s+|_)(?P<unit>[°º]\s?[CFcf]|deg[CFcf]|min|sec|s|h)\s*$"
+)
 
 
 class LogFileError(ValueError):
@@ -359,14 +362,30 @@ def _words(text: str) -> list[str]:
     return [w for w in re.split(r"[^a-z0-9]+", text.lower()) if w]
 
 
+def _known_unit(unit: str) -> bool:
+    key = unit.lower().replace(" ", "").replace("º", "°")
+    return key in _TEMP_UNITS or key in _TIME_UNITS
+
+
 def _header_unit(text: str) -> tuple[str, str | None]:
-    """``"core [°F]"`` -> ``("core", "°F")``; also ``core_degF``, ``time_min``."""
+    """``"core [°F]"`` -> ``("core", "°F")``; also ``core °F``, ``core_degF``, ``time_min``.
+
+    Brackets holding a known temperature or time unit, or something short
+    that can only be a unit (``[psi]``, refused later), give the unit; other
+    brackets (``core (oven 1)``) are part of the name.
+    """
     m = _UNIT_IN_HEADER.match(text)
     if m:
-        return m.group("name").strip(), m.group("unit").strip()
-    for suffix in ("_degc", "_degf", "_min", "_s", "_h", "_sec"):
-        if text.lower().endswith(suffix):
-            return text[: -len(suffix)], suffix[1:]
+        unit = m.group("unit").strip()
+        looks_like_unit = (
+            "°" in unit or unit.lower().startswith("deg") or (unit.isalpha() and len(unit) <= 4)
+        )
+        if _known_unit(unit) or looks_like_unit:
+            return m.group("name").strip(), unit
+        return text, None
+    m = _UNIT_AT_END.match(text)
+    if m and m.group("name").strip():
+        return m.group("name").strip(), m.group("unit")
     return text, None
 
 
