@@ -246,3 +246,13 @@ def test_units_without_brackets_and_brackets_that_are_names(tmp_path):
     assert log.cores[0].values == pytest.approx([5.0, 10.0, 15.0])
     assert log.cores[1].values.tolist() == [5.0, 6.0, 7.0]
     assert log.air.values == pytest.approx([160.0, 170.0, 180.0])
+
+
+def test_without_an_air_channel_a_sudden_jump_is_noted_not_cut(tmp_path):
+    core = [5, 8, 11, 14, 17, 20, 178.5, 179.0, 179.4]
+    rows = [f"{30 * i},{c}" for i, c in enumerate(core)]
+    log = read_log(_write(tmp_path, "time [s],core\n" + "\n".join(rows) + "\n"))
+    assert log.cores[0].pulled_at is None
+    assert np.isfinite(log.cores[0].values).all()
+    (note,) = [n for n in log.notes if n.kind == "jump"]
+    assert note.line == 8 and "no air channel" in note.message

@@ -146,6 +146,11 @@ def cmd_verify(args: argparse.Namespace, ui: Ui) -> int:
         h, source = _h_of(product, target)
     except ThermalInputError as exc:
         raise BadInput([f"{target.path}: {exc}"]) from exc
+    if log.air is None:
+        source += (
+            f"; the log has no air channel: the model holds the setting's "
+            f"{target.spec.air_temperature:g} °C"
+        )
     try:
         record = verify_run(
             log,
@@ -154,6 +159,7 @@ def cmd_verify(args: argparse.Namespace, ui: Ui) -> int:
             properties=piece.properties,
             h=h,
             h_source=source,
+            air_temperature=target.spec.air_temperature,
         )
     except VerifyError as exc:
         raise BadInput([str(exc)]) from exc

@@ -167,7 +167,8 @@ class LogNote:
     ----------
     kind : str
         ``"missing"``, ``"out_of_range"``, ``"duplicate"``, ``"out_of_order"``,
-        ``"gap"``, ``"pulled"``, ``"midnight"`` or ``"ignored_column"``.
+        ``"gap"``, ``"pulled"``, ``"jump"`` (no air channel to judge it), ``"midnight"``
+        or ``"ignored_column"``.
     channel : str or None
         Column concerned (None for whole rows).
     line : int or None
@@ -906,6 +907,20 @@ def read_log(
                     raise LogFileError(
                         name, int(lines[at]), bare[i], "probe pulled out before any reading"
                     )
+        elif role == "core":
+            jump = _jump_index(values)
+            if jump is not None:
+                notes.append(
+                    LogNote(
+                        "jump",
+                        bare[i],
+                        int(lines[jump]),
+                        1,
+                        f"{bare[i]}: sudden jump at line {int(lines[jump])} "
+                        f"({times[jump] / 60:.1f} min) and no air channel to tell whether the "
+                        "probe was pulled out; readings kept, check the run",
+                    )
+                )
         channels.append(Channel(bare[i], role, values, col_units[i], pulled))
     return ProbeLog(
         path=name,
@@ -985,6 +1000,17 @@ def _gaps(times: NDArray[np.float64], lines: NDArray[np.int_]) -> list[LogNote]:
             )
         )
     return out
+
+
+def _jump_index(core: NDArray[np.float64]) -> int | None:
+    """First sample at which a core probe jumps by far more than its usual step, or None."""
+    ok = np.flatnonzero(np.isfinite(core))
+    if ok.size < 3:
+        return None
+    jumps = np.abs(np.diff(core[ok]))
+    limit = max(4 * PULLED_JUMP_K, 20.0 * float(np.median(jumps)))
+    big = np.flatnonzero(jumps > limit)
+    return int(ok[big[0] + 1]) if big.size else None
 
 
 def _pulled_index(core: NDArray[np.float64], air: NDArray[np.float64]) -> int | None:

@@ -233,6 +233,7 @@ def verify_run(
     h: float | None = None,
     h_source: str = "",
     probes: list[str] | None = None,
+    air_temperature: float | None = None,
 ) -> RunRecord:
     """Check every core probe of a logged run against ``rule``.
 
@@ -250,6 +251,9 @@ def verify_run(
         Where ``h`` comes from (for the record).
     probes : list of str, optional
         Core channels to check (default all).
+    air_temperature : float, optional
+        Constant air temperature for the model trace when the log has no air
+        channel [°C].
 
     Returns
     -------
@@ -271,12 +275,15 @@ def verify_run(
     surfaces = log.surfaces
     model = None
     air = log.air.values if log.air is not None else None
-    if geometry is not None and h is not None and air is not None:
+    model_air = air
+    if model_air is None and air_temperature is not None:
+        model_air = np.full(log.times.size, float(air_temperature))
+    if geometry is not None and h is not None and model_air is not None:
         starts = []
         for c in chans:
             ok = np.flatnonzero(np.isfinite(c.values))
             starts.append(c.values[ok[0]])
-        segs = air_segments(log.times, air)
+        segs = air_segments(log.times, model_air)
         model = probe_temperatures(
             geometry,
             properties,
