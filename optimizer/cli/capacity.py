@@ -32,6 +32,7 @@ from optimizer.planning.capacity import (
     max_mix_capacity,
 )
 from optimizer.planning.highs import quiet_solver_banner
+from optimizer.planning.results import bottleneck
 from optimizer.reporting import export
 
 __all__ = ["add_parser", "cmd_capacity", "parse_mix"]
@@ -159,8 +160,12 @@ def cmd_capacity(args: argparse.Namespace, ui: Ui) -> int:
     data["files"] = [str(p) for p in written]
     ui.emit_json(data)
     ui.say(rich_table(tables["capacity_mix"], title=f"Mix ({source})"))
-    for line in full_machines(cap.plan):
+    full = full_machines(cap.plan)
+    for line in full:
         ui.say(f"What limits it: {line}")
+    bn = bottleneck(cap.plan)
+    if not full and bn is not None:
+        ui.say(f"What limits it: {bn.kind} {bn.machine} ({bn.reason})")
     if cap.limit is not None and cap.limit.shortfalls:
         ui.say("Asked for more of this mix, the elastic re-solve reports:")
         for s in cap.limit.shortfalls:

@@ -9,6 +9,7 @@ from typing import Any
 import pandas as pd
 
 from optimizer.planning.capacity import CAPACITY_TOLERANCE, CapacityResult, full_machines
+from optimizer.planning.results import bottleneck
 from optimizer.reporting import export
 from optimizer.reporting.html import SAFETY_CAUTION, HtmlReport, utilisation_figure
 from optimizer.scenario.models import Scenario
@@ -82,9 +83,16 @@ def capacity_report(
     )
     report.section("What limits it")
     full = full_machines(cap.plan)
+    bn = bottleneck(cap.plan)
     if full:
         report.paragraph("The machines whose time runs out at this capacity:")
         report.bullets(full)
+    elif bn is not None:
+        report.paragraph(
+            f"No machine is used to its last minute; the one that limits the mix is the "
+            f"{bn.kind} {bn.machine} ({bn.reason}, mean {100 * bn.utilisation:.0f} % of its "
+            "available minutes)."
+        )
     if cap.limit is not None and cap.limit.shortfalls:
         report.paragraph(
             "Asked for more of the same mix, the elastic re-solve reports what would be "

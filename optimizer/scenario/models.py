@@ -1520,14 +1520,13 @@ def _error_line(root: type[BaseModel], err: Mapping[str, Any], prefix: str = "")
             path = f"{path}.{sub}" if path else sub
         return f"{path}: {msg}" if path else msg
     if kind == "missing":
+        # a missing dimension: say which dimensions that shape needs
         model = _model_at(root, loc)
+        shape = model.model_fields.get("shape") if model is not None else None
         needs = ""
-        if model is not None:
+        if shape is not None:
             required = [f.alias or n for n, f in model.model_fields.items() if f.is_required()]
-            shape = model.model_fields.get("shape")
-            what = f"a {shape.default} needs" if shape is not None else "needs"
-            if required:
-                needs = f"; {what} {', '.join(required)}"
+            needs = f"; a {shape.default} needs {', '.join(required)}" if required else ""
         return f"{path}: required field is missing{needs}"
     if kind == "extra_forbidden":
         model = _model_at(root, loc)
