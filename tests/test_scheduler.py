@@ -96,7 +96,8 @@ def test_batch_too_big_for_the_hot_hold_window_is_cut_to_whole_trays():
 
 def test_belt_must_clear_by_the_shift_end():
     # shift of 60 min: a batch unloads at 36, feeds 38-42 and its last piece would
-    # leave at 62 > 60: the batch is unplaced (shift end)
+    # leave at 62 > 60. Feeding must end by 60 - 20 = 40 min: 2 min x 5 kg/min =
+    # 10 kg = 2 trays go; the other 2 trays (10 kg) are unplaced (shift end)
     inp = plant(shifts=(60.0,))
     res = result(
         inp,
@@ -104,9 +105,12 @@ def test_belt_must_clear_by_the_shift_end():
         [run(inp, "s0", "a", "ov", "s1", 20.0, 20.0)],
     )
     sh = schedule_plan(inp, res).shifts[0]
-    assert sh.batches == ()
+    (b,) = sh.batches
+    assert [c.trays for c in b.contents] == [2]
+    (f,) = sh.tunnels[0].feeds
+    assert (f.start, f.end, f.last_exit) == pytest.approx((38.0, 40.0, 60.0))
     (u,) = sh.unplaced
-    assert (u.rule, u.kg) == ("shift_end", pytest.approx(20.0))
+    assert (u.rule, u.kg) == ("shift_end", pytest.approx(10.0))
 
 
 def test_back_to_back_carries_the_belt_into_the_next_shift():
@@ -136,8 +140,10 @@ def test_last_shift_always_clears_even_back_to_back():
         [line(inp, "s0", "ov", "s1", 1, 30.0, {"a": (4, 20.0)})],
         [run(inp, "s0", "a", "ov", "s1", 20.0, 20.0)],
     )
-    (u,) = schedule_plan(inp, res).shifts[0].unplaced
-    assert u.rule == "shift_end"
+    sh = schedule_plan(inp, res).shifts[0]
+    (u,) = sh.unplaced
+    assert (u.rule, u.kg) == ("shift_end", pytest.approx(10.0))
+    assert sh.tunnels[0].feeds[0].last_exit == pytest.approx(60.0)
 
 
 def test_fixed_stop_and_placed_stop_on_the_oven():

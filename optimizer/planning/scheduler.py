@@ -311,7 +311,7 @@ class _Placed:
     belts: dict[str, Belt]
     runs: dict[str, tuple[str, str, str]]
     changes: tuple[tuple[str, float, float, str, str], ...]
-    cut: tuple[tuple[_Part, int, str], ...]  # trays not placed, with detail
+    cut: tuple[tuple[_Part, int, str, str], ...]  # trays not placed, rule, detail
 
 
 @dataclass(frozen=True)
@@ -382,8 +382,9 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
     """Where ``job`` goes next on ``oven``, given the tunnels' state, or why it cannot."""
     cycle = job.cook_min + oven.data.load_unload_min
     earliest = 0.0
-    cut: list[tuple[_Part, int, str]] = []
-    parts = list(job.parts)
+    cut: list[tuple[_Part, int, str, str]] = []
+    # the product of the run the tunnel is on goes first
+    parts = sorted(job.parts, key=lambda p: (p.run != tunnels[p.tunnel].run, p.run))
     for _ in range(200):
         start, co = _oven_start(oven, job, earliest)
         unload = start + cycle
@@ -413,7 +414,11 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
                 part.trays,
             )
             if isinstance(out, _Fail):
-                return out
+                fit = _trays_that_clear(tn, belts[part.tunnel], runs[part.tunnel], part, at)
+                cut.append((part, part.trays - fit, out.rule, out.detail))
+                parts[i] = replace(part, trays=fit)
+                retry = True
+                break
             new, f0, f1, tco = out
             slack = min(slack_of.get(part.tunnel, math.inf), f0 - (at + tn.data.transfer_min))
             slack_of[part.tunnel] = slack
@@ -423,12 +428,12 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
                     retry = True
                     break
                 fit = _trays_that_fit(tn, belts[part.tunnel], runs[part.tunnel], part, at)
-                if fit < part.trays:
-                    detail = _hot_hold_detail(tn, part, f1 - f0, fit)
-                    cut.append((part, part.trays - fit, detail))
-                    parts[i] = replace(part, trays=fit)
-                    retry = True
-                    break
+                fit = min(fit, part.trays - 1)
+                detail = _hot_hold_detail(tn, part, f1 - f0, fit)
+                cut.append((part, part.trays - fit, "hot_hold", detail))
+                parts[i] = replace(part, trays=fit)
+                retry = True
+                break
             if tco > 0:
                 changes.append(
                     (part.tunnel, f0 - tco, f0, _run_text(runs[part.tunnel]), _run_text(part.run))
@@ -439,7 +444,7 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
         if retry:
             parts = [p for p in parts if p.trays > 0]
             if not parts:
-                return _Fail("hot_hold", cut[-1][2] if cut else "no tray fits the hot-hold window")
+                return _Fail(cut[-1][2], cut[-1][3])
             earliest = max(earliest, start + delay) if delay > 0 else earliest
             continue
         job2 = replace(job, parts=tuple(parts))
@@ -464,13 +469,31 @@ def _trays_that_fit(tn: _Tunnel, belt: Belt, run, part: _Part, at: float) -> int
     return lo
 
 
+def _trays_that_clear(tn: _Tunnel, belt: Belt, run, part: _Part, at: float) -> int:
+    """Most trays of ``part`` (fewer than all) the belt can take and clear in time."""
+    lo, hi = 0, part.trays - 1
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        out = _feed_part(tn, belt, run, part, at + tn.data.transfer_min, mid)
+        if not isinstance(out, _Fail):
+            lo = mid
+        else:
+            hi = mid - 1
+    return lo
+
+
 def _hot_hold_detail(tn: _Tunnel, part: _Part, feed_min: float, fit: int) -> str:
     window = part.hold - tn.data.transfer_min
+    speed = part.kg / part.kg_per_m / feed_min if feed_min > 0 else part.limit
+    slower = f" (slowed by product already on the belt; the route allows {part.limit:.3g})"
     return (
         f"{part.trays} trays of {part.product} take {feed_min:.1f} min to go onto "
-        f"{tn.data.name} at {part.limit:.3g} m/min, but only {window:.1f} min are left of the "
-        f"{part.hold:g} min hot-hold limit after the {tn.data.transfer_min:g} min transfer; "
-        f"{fit} trays per batch fit (fewer trays, a faster belt or a longer limit would)"
+        f"{tn.data.name} at {speed:.3g} m/min"
+        f"{slower if speed < part.limit * (1 - 1e-6) else ''}, but only {window:.1f} min "
+        f"are left of the {part.hold:g} min hot-hold limit after the "
+        f"{tn.data.transfer_min:g} min transfer: {part.trays - fit} trays "
+        f"({(part.trays - fit) * part.kg_per_tray:g} kg) over; {fit} trays per batch fit "
+        "(fewer trays, a faster belt or a longer limit would)"
     )
 
 
@@ -547,8 +570,14 @@ def _simulate(
     belts: dict[str, Belt],
     runs: dict[str, tuple[str, str, str] | None],
     weight: dict[str, float],
+    grouped: dict[tuple[str, str, str], int] | None = None,
 ) -> _ShiftRun:
-    """Place ``jobs`` (each oven's in list order) in one shift."""
+    """Place ``jobs`` (each oven's in list order) in one shift.
+
+    Of the next batch of every oven, the one whose first feed starts earliest
+    goes next; with ``grouped`` (run -> rank) the lowest-ranked run goes first,
+    so the tunnel finishes one run before it starts the next.
+    """
     sh = frame.shift
     ovens = {
         o.name: _Oven(o, sh.window(o.name), [(a, b) for a, b, _ in frame.stops[o.name]])
@@ -579,6 +608,9 @@ def _simulate(
                     failed.append((pending[name].pop(0), out))
                     continue
                 key = (min(f[1] for f in out.feeds), out.unload, rank[name])
+                if grouped is not None:
+                    first = min(grouped.get(p.run, len(grouped)) for p in out.job.parts)
+                    key = (first, *key)
                 if best is None or key < best[0]:
                     best = (key, name, out)
                 break
@@ -633,21 +665,22 @@ def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _Shift
         return _simulate(inputs, frame, [], belts, runs, weight)
     tried: dict[tuple, _ShiftRun] = {}
 
-    def run(order: list) -> _ShiftRun:
-        key = tuple(order)
+    def run(grouped: bool, order: list) -> _ShiftRun:
+        key = (grouped, *order)
         if key not in tried:
-            tried[key] = _simulate(inputs, frame, _ordered(jobs, order), belts, runs, weight)
+            rank = {r: i for i, r in enumerate(order)} if grouped else None
+            tried[key] = _simulate(inputs, frame, _ordered(jobs, order), belts, runs, weight, rank)
         return tried[key]
 
-    cands = _orders(jobs)
-    best_order = cands[0]
-    best = run(best_order)
-    for c in cands[1:]:
+    cands = [(g, c) for c in _orders(jobs) for g in (False, True)]
+    best_mode, best_order = cands[0]
+    best = run(best_mode, best_order)
+    for g, c in cands[1:]:
         if len(tried) >= trials:
             break
-        r = run(c)
+        r = run(g, c)
         if r.score > best.score:
-            best, best_order = r, c
+            best, best_mode, best_order = r, g, c
     improved = True
     while improved and len(tried) < trials:
         improved = False
@@ -656,9 +689,9 @@ def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _Shift
                 break
             c = list(best_order)
             c[i], c[i + 1] = c[i + 1], c[i]
-            if tuple(c) in tried:
+            if (best_mode, *c) in tried:
                 continue
-            r = run(c)
+            r = run(best_mode, c)
             if r.score > best.score:
                 best, best_order, improved = r, c, True
     return best
@@ -907,8 +940,8 @@ def _unplaced(shift: str, run: _ShiftRun) -> tuple[Unplaced, ...]:
         k = (job.oven, job.load, fail.rule)
         agg.setdefault(k, [0.0, fail.detail])[0] += job.kg
     for x in run.placed:
-        for part, trays, detail in x.cut:
-            k = (x.job.oven, x.job.load, "hot_hold")
+        for part, trays, rule, detail in x.cut:
+            k = (x.job.oven, x.job.load, rule)
             agg.setdefault(k, [0.0, detail])[0] += trays * part.kg_per_tray
     return tuple(
         Unplaced(shift, oven, load, kg, rule, detail)
