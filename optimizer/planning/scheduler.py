@@ -499,6 +499,9 @@ def _hot_hold_detail(tn: _Tunnel, part: _Part, feed_min: float, fit: int) -> str
 
 # ------------------------------------------------------------------ one shift
 
+MODES: tuple[tuple[bool, int], ...] = ((False, 1), (True, 1), (False, 3), (True, 3))
+"""Search modes tried per run order: (tunnel finishes a run first, batches looked ahead)."""
+
 
 @dataclass(frozen=True)
 class _ShiftRun:
@@ -571,12 +574,15 @@ def _simulate(
     runs: dict[str, tuple[str, str, str] | None],
     weight: dict[str, float],
     grouped: dict[tuple[str, str, str], int] | None = None,
+    look: int = 1,
 ) -> _ShiftRun:
     """Place ``jobs`` (each oven's in list order) in one shift.
 
     Of the next batch of every oven, the one whose first feed starts earliest
     goes next; with ``grouped`` (run -> rank) the lowest-ranked run goes first,
-    so the tunnel finishes one run before it starts the next.
+    so the tunnel finishes one run before it starts the next. With ``look``
+    > 1 an oven may run one of its next ``look`` different batches out of
+    list order when that one feeds sooner.
     """
     sh = frame.shift
     ovens = {
@@ -602,22 +608,31 @@ def _simulate(
     while True:
         best: tuple | None = None
         for name in pending:
-            while pending[name]:
-                out = _try(pending[name][0], ovens[name], tunnels)
-                if isinstance(out, _Fail):
-                    failed.append((pending[name].pop(0), out))
+            seen = set()
+            i = 0
+            while i < len(pending[name]) and len(seen) < look:
+                job = pending[name][i]
+                sig = (job.load, job.parts)
+                if sig in seen:
+                    i += 1
                     continue
-                key = (min(f[1] for f in out.feeds), out.unload, rank[name])
+                seen.add(sig)
+                out = _try(job, ovens[name], tunnels)
+                if isinstance(out, _Fail):
+                    failed.append((pending[name].pop(i), out))
+                    seen.discard(sig)
+                    continue
+                key = (min(f[1] for f in out.feeds), out.unload, rank[name], i)
                 if grouped is not None:
                     first = min(grouped.get(p.run, len(grouped)) for p in out.job.parts)
                     key = (first, *key)
                 if best is None or key < best[0]:
-                    best = (key, name, out)
-                break
+                    best = (key, name, out, i)
+                i += 1
         if best is None:
             break
-        _, name, out = best
-        pending[name].pop(0)
+        _, name, out, i = best
+        pending[name].pop(i)
         oven = ovens[name]
         oven.free = out.unload
         oven.setting = out.job.setting
@@ -665,14 +680,16 @@ def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _Shift
         return _simulate(inputs, frame, [], belts, runs, weight)
     tried: dict[tuple, _ShiftRun] = {}
 
-    def run(grouped: bool, order: list) -> _ShiftRun:
-        key = (grouped, *order)
+    def run(mode: tuple[bool, int], order: list) -> _ShiftRun:
+        key = (mode, *order)
         if key not in tried:
-            rank = {r: i for i, r in enumerate(order)} if grouped else None
-            tried[key] = _simulate(inputs, frame, _ordered(jobs, order), belts, runs, weight, rank)
+            rank = {r: i for i, r in enumerate(order)} if mode[0] else None
+            tried[key] = _simulate(
+                inputs, frame, _ordered(jobs, order), belts, runs, weight, rank, mode[1]
+            )
         return tried[key]
 
-    cands = [(g, c) for c in _orders(jobs) for g in (False, True)]
+    cands = [(m, c) for c in _orders(jobs) for m in MODES]
     best_mode, best_order = cands[0]
     best = run(best_mode, best_order)
     for g, c in cands[1:]:
