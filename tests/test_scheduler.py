@@ -246,6 +246,7 @@ def _cases(draw):
         f"p{i}": (draw(st.sampled_from([2.0, 5.0, 6.5])), draw(st.sampled_from([8.0, 12.0, 20.0])))
         for i in range(draw(st.integers(1, 3)))
     }
+    tunnels = ("tn", "tn2")[: draw(st.integers(1, 2))]
     n_shifts = draw(st.integers(1, 3))
     shift_min = tuple(draw(st.sampled_from([120.0, 240.0, 480.0])) for _ in range(n_shifts))
     transfer = draw(st.sampled_from([0.0, 2.0, 8.0]))
@@ -257,7 +258,7 @@ def _cases(draw):
                     st.builds(
                         StopData,
                         st.sampled_from([5.0, 20.0]),
-                        st.sampled_from([None, *ovens, "tn"]),
+                        st.sampled_from([None, *ovens, *tunnels]),
                         st.just("stop"),
                         st.sampled_from([None, None, 30.0]),
                     ),
@@ -284,6 +285,7 @@ def _cases(draw):
         back_to_back=draw(st.booleans()),
         settings=("s1", "s2"),
         tunnel_settings=("c1", "c2"),
+        tunnels=tunnels,
     )
     oven_trays = inp.ovens[0].trays
     batches, runs = [], []
@@ -305,14 +307,18 @@ def _cases(draw):
                 for p, (_, kg) in contents.items():
                     res_min = [draw(st.sampled_from([3.0, 20.0, 60.0])) for _ in range(2)]
                     split = draw(st.sampled_from([1.0, 0.5, 0.0]))
-                    for ts, part, rm in (("c1", split, res_min[0]), ("c2", 1 - split, res_min[1])):
+                    where = [draw(st.sampled_from(tunnels)) for _ in range(2)]
+                    for ts, part, rm, tn in (
+                        ("c1", split, res_min[0], where[0]),
+                        ("c2", 1 - split, res_min[1], where[1]),
+                    ):
                         if part > 0:
-                            runs.append(run(inp, s.name, p, o, setting, kg * part, rm, ts))
+                            runs.append(run(inp, s.name, p, o, setting, kg * part, rm, ts, tn))
         del si
     return inp, result(inp, batches, runs)
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(_cases(), st.sampled_from([1, 6]))
 def test_random_plants_keep_every_rule(case, trials):
     inp, res = case

@@ -16,19 +16,26 @@ How it works
    by batch.
 2. Order. Each oven gets a list of its batches; the lists follow one order
    of the tunnel runs (product at a tunnel setting), so ovens that share a
-   tunnel feed the same run at about the same time. Several run orders are
-   tried (by residence, by kg, as planned, then swaps of neighbours while
-   they help) within a fixed number of trials (a work limit, not a time
-   limit), and the schedule placing the most value (kg for objectives
-   other than most value) is kept, ties to the earliest finish.
+   tunnel feed the same run at about the same time. Run orders tried: the
+   slowest residence first, the fastest first, as planned and by kg; each
+   in four modes (:data:`MODES`: the tunnel may or may not have to finish a
+   run before it starts the next; an oven runs its list in order or may
+   pick one of its next three different batches that feeds sooner); then
+   swaps of neighbouring runs in the best order while they help. At most
+   ``ScheduleOptions.trials`` simulations per shift (a work limit, not a
+   time limit); the one placing the most value (kg for objectives other
+   than most value) is kept, ties to the earliest feeds.
 3. Placement. Repeatedly, of the next batch of every oven, the one whose
    first feed can start earliest is placed (ties: earliest unload, then
-   plant order). A batch starts as soon as its oven is free (after a
+   plant order, then list position). A batch starts as soon as its oven is free (after a
    setting changeover and clear of stops), unless its product would wait
    longer than the hot-hold limit for a busy belt: then its start is
    delayed just enough. When even an idle belt cannot take the whole batch
    within the hot-hold window, the batch runs with the trays that fit and
-   the rest is unplaced (rule ``hot_hold``).
+   the rest is unplaced (rule ``hot_hold``); likewise when the belt could
+   not clear the whole batch by the shift end (rule ``shift_end``). A batch
+   that does not fit in its oven's minutes is unplaced (``oven_minutes``).
+   In a mixed batch the product of the run the tunnel is on goes first.
 4. Belt. Each tunnel is simulated exactly (:mod:`optimizer.planning.belt`):
    the belt runs at the slowest speed the pieces on it allow, so a speed-up
    waits until slower pieces have left. A change of tunnel air setting
@@ -149,6 +156,7 @@ class _Job:
     setting: str
     cook_min: float
     parts: tuple[_Part, ...]
+    cycle_min: float = 0.0
 
     @property
     def kg(self) -> float:
@@ -222,7 +230,11 @@ def _jobs(inputs: PlanInputs, result: PlanResult, shift: str) -> list[_Job]:
                     need -= take
                     parts.append(_part(products[product], tunnels[r.tunnel], r, take))
             if parts:
-                jobs.append(_Job(len(jobs), b.oven, b.load, b.setting, b.cook_min, tuple(parts)))
+                jobs.append(
+                    _Job(
+                        len(jobs), b.oven, b.load, b.setting, b.cook_min, tuple(parts), b.cycle_min
+                    )
+                )
     return jobs
 
 
@@ -670,8 +682,18 @@ def _orders(jobs: list[_Job]) -> list[list[tuple[str, str, str]]]:
 
 
 def _ordered(jobs: list[_Job], runs: list[tuple[str, str, str]]) -> list[_Job]:
+    """Jobs by run order, oven setting, then most kg per oven minute first."""
     rank = {r: i for i, r in enumerate(runs)}
-    return sorted(jobs, key=lambda j: (rank[j.parts[0].run], j.setting, j.load, j.index))
+    return sorted(
+        jobs,
+        key=lambda j: (
+            rank[j.parts[0].run],
+            j.setting,
+            -j.kg / j.cycle_min if j.cycle_min > 0 else 0.0,
+            j.load,
+            j.index,
+        ),
+    )
 
 
 def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _ShiftRun:
