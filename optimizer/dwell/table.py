@@ -607,7 +607,7 @@ def build_dwell_table(
         if ck not in cook_keys:
             cook_keys[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
             chills_of[ck] = {}
-        factor = loading_factor(loading)
+        factor = loading_factor(loading, tset)
         key = dwell_cache_key(
             _chill_inputs(scenario, product, cook_keys[ck], tunnel, tset, factor, options), salt
         )
