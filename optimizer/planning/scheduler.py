@@ -578,6 +578,10 @@ def _weight(inputs: PlanInputs) -> dict[str, float]:
     return {p.name: 1.0 for p in inputs.products}
 
 
+def _tunnels_of(job: _Job) -> tuple[str, ...]:
+    return tuple(sorted({p.tunnel for p in job.parts}))
+
+
 def _simulate(
     inputs: PlanInputs,
     frame: _Frame,
@@ -617,6 +621,7 @@ def _simulate(
     rank = {o.name: i for i, o in enumerate(inputs.ovens)}
     placed: list[_Placed] = []
     failed: list[tuple[_Job, _Fail]] = []
+    cache: dict[int, tuple] = {}
     while True:
         best: tuple | None = None
         for name in pending:
@@ -629,7 +634,19 @@ def _simulate(
                     i += 1
                     continue
                 seen.add(sig)
-                out = _try(job, ovens[name], tunnels)
+                # a batch's placement depends only on its oven and the tunnels it feeds
+                state = (ovens[name].free, ovens[name].setting)
+                used = tuple((tunnels[t].belt, tunnels[t].run) for t in _tunnels_of(job))
+                hit = cache.get(job.index)
+                if (
+                    hit is not None
+                    and hit[0] == state
+                    and all(a is b and r == q for (a, r), (b, q) in zip(hit[1], used, strict=True))
+                ):
+                    out = hit[2]
+                else:
+                    out = _try(job, ovens[name], tunnels)
+                    cache[job.index] = (state, used, out)
                 if isinstance(out, _Fail):
                     failed.append((pending[name].pop(i), out))
                     seen.discard(sig)
@@ -648,9 +665,9 @@ def _simulate(
         oven = ovens[name]
         oven.free = out.unload
         oven.setting = out.job.setting
-        for k, tn in tunnels.items():
-            tn.belt = out.belts[k]
-            tn.run = out.runs[k]
+        for k in _tunnels_of(out.job):
+            tunnels[k].belt = out.belts[k]
+            tunnels[k].run = out.runs[k]
         placed.append(out)
     kg = sum(p.kg * weight.get(p.product, 1.0) for x in placed for p in x.job.parts)
     finish = sum(f[2] for x in placed for f in x.feeds)
