@@ -447,9 +447,9 @@ def test_added_oven_demand_growth_product_mix_and_shift_pattern(tmp_path):
     assert raw["ovens"][2]["trays"] == base["ovens"][0]["trays"]
     assert raw["tunnels"][0]["fed_by"][-2:] == ["rack-oven-1-copy-1", "rack-oven-1-copy-2"]
     orders = {o["product"]: o for o in raw["orders"]}
-    assert orders["chicken-fillet"]["min_kg"] == pytest.approx(600 * 1.5)
+    assert orders["chicken-fillet"]["min_kg"] == pytest.approx(100 * 1.5)
     assert orders["chicken-fillet"]["max_kg"] == pytest.approx(3000 * 1.5)
-    assert orders["pork-sausage"]["min_kg"] == pytest.approx(800 * 1.5 * 2)
+    assert orders["pork-sausage"]["min_kg"] == pytest.approx(400 * 1.5 * 2)
     assert orders["pork-sausage"]["max_kg"] == pytest.approx(2000 * 1.5 * 2)
     assert "min_kg" not in orders["veg-dumpling"]  # no minimum stays no minimum
     assert [s.get("stops") for s in raw["shifts"]] == [None, None, None]
