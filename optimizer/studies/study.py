@@ -1316,7 +1316,7 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
     from optimizer.dwell.table import build_dwell_table
     from optimizer.planning.adapter import plan_inputs
     from optimizer.planning.inputs import SolveOptions
-    from optimizer.planning.solve import plan
+    from optimizer.planning.solve import plan_buckets
 
     head = {"index": point.index, "label": point.label}
     try:
@@ -1332,7 +1332,7 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
             "message": str(exc).replace("\n", "; "),
         }
     quiet_solver_banner()
-    result = plan(inputs, options)
+    result = plan_buckets(inputs, options)
     return {**head, **plan_row(scenario, dwell, result)}
 
 
