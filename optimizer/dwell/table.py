@@ -103,7 +103,7 @@ from optimizer.dwell.convert import (
     loading_factor,
     thermal_product,
 )
-from optimizer.dwell.stages import transfer_stage, tunnel_zones
+from optimizer.dwell.stages import hold_waits, transfer_stage, tunnel_zones
 from optimizer.scenario.models import (
     Oven,
     OvenSetting,
@@ -195,16 +195,6 @@ class SolverOptions:
         return {1: self.cells_1d, 2: self.cells_2d}.get(n_directions, self.cells_3d)
 
 
-def _hold_waits(tunnel: Tunnel) -> list[float]:
-    """Waits between oven and belt to check [min]: the transfer and the hot-hold limit."""
-    if tunnel.transfer is None:
-        return [0.0]
-    waits = [tunnel.transfer.duration]
-    if tunnel.hot_hold_max is not None and tunnel.hot_hold_max > tunnel.transfer.duration:
-        waits.append(tunnel.hot_hold_max)
-    return waits
-
-
 # ------------------------------------------------------------------------ the cells
 
 
@@ -249,7 +239,7 @@ def _chill_inputs(
         "cook": cook_key,
         "product": _product_inputs(product),
         "transfer": None if tunnel.transfer is None else tunnel.transfer.model_dump(mode="json"),
-        "waits": _hold_waits(tunnel),
+        "waits": hold_waits(tunnel),
         "zones": [
             z.model_dump(mode="json", exclude={"name", "length", "length_fraction"})
             for z in setting.zones
@@ -352,7 +342,7 @@ def _compute_chill(
         None if prof["density"] is None else np.asarray(prof["density"], dtype=float),
     )
     zones = tunnel_zones(tunnel, setting, factor)
-    waits = _hold_waits(tunnel)
+    waits = hold_waits(tunnel)
     try:
         res = yield from process.required_chill_job(
             piece,
