@@ -21,11 +21,14 @@ sample: $(STAMP)
 	SOURCE_DATE_EPOCH=1767225600 $(VENV)/bin/corepace plan configs/demo.yaml --out reports/sample --quiet
 
 test: $(STAMP)
+	.ci/chromium
 	$(PY) -m pytest -q
 
+# ruff, then the layer contract of pyproject.toml [tool.importlinter] (also in the suite)
 lint: $(STAMP)
 	$(VENV)/bin/ruff check thermal optimizer tests
 	$(VENV)/bin/ruff format --check thermal optimizer tests
+	$(VENV)/bin/lint-imports
 
 bench: $(STAMP)
 	for f in tests/bench/bench_*.py; do $(PY) $$f || exit 1; done

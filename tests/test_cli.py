@@ -32,7 +32,8 @@ import pandas as pd
 import pytest
 import yaml
 
-from optimizer.cli.app import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK, main
+from optimizer.cli.app import main
+from optimizer.cli.common import EXIT_BAD_INPUT, EXIT_NO_PLAN, EXIT_OK
 from tests._png import DRAWN_MIN, coloured_share, png_of_data_uri
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -279,7 +280,7 @@ def test_plan_demo_report_carries_caution_hash_and_version(demo_plan, plant):
     _, out, _ = demo_plan
     text = (out / "report.html").read_text(encoding="utf-8")
     assert sha256(plant) in text
-    from optimizer.cli.app import tool_version
+    from optimizer.scenario.provenance import tool_version
 
     assert tool_version() in text
     for phrase in (
@@ -608,7 +609,7 @@ def terminal_env(monkeypatch):
     ],
 )
 def test_progress_bar_only_on_a_terminal(tty, options, shown, monkeypatch, terminal_env):
-    from optimizer.cli.app import Ui
+    from optimizer.cli.terminal import Ui
 
     stream = Terminal() if tty else io.StringIO()
     monkeypatch.setattr(sys, "stdout", stream)

@@ -17,7 +17,7 @@ import pandas as pd
 import pytest
 
 import optimizer.dwell.table as dwell
-from optimizer.cli.app import render_dwell_table
+from optimizer.cli.terminal import render_dwell_table
 from optimizer.dwell.table import COLUMNS, SolverOptions, build_dwell_table
 from optimizer.scenario.models import scenario_from_dict
 

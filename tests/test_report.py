@@ -19,15 +19,13 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from optimizer.dwell.histories import CurveSet, RuleMark, Stage
 from optimizer.reporting import export
+from optimizer.reporting.cells import format_cell
 from optimizer.reporting.html import (
-    CurveSet,
     HtmlReport,
-    RuleMark,
-    Stage,
     TimelineBar,
     figure_png,
-    format_cell,
     temperature_figure,
     timeline_figure,
 )

@@ -20,6 +20,8 @@ import pandas as pd
 import pytest
 import yaml
 
+from optimizer.cli import sweep as sweep_cli
+from optimizer.reporting import study as study_report
 from optimizer.scenario.overrides import Change, OverrideError, apply_changes, load_raw
 from optimizer.studies import study as sweep
 from optimizer.studies.execute import grid_points
@@ -510,7 +512,7 @@ def test_sweep_command_writes_tables_report_and_exit_code(plant, cache, tmp_path
         },
     )
     out = tmp_path / "out"
-    code = sweep.main([str(study), "--out", str(out), "--cache-dir", str(cache), "--serial"])
+    code = sweep_cli.main([str(study), "--out", str(out), "--cache-dir", str(cache), "--serial"])
     captured = capsys.readouterr()
     assert code == 1  # one point has no feasible plan
     assert "impossible orders: no feasible plan (infeasible)" in captured.err
@@ -536,7 +538,7 @@ def test_sweep_command_writes_tables_report_and_exit_code(plant, cache, tmp_path
     assert 'data-figure="throughput-points"' in page
     assert len(list((out / "points").glob("*.json"))) == 3
     # --json on a rerun resumes from the points folder and gives the same table.
-    code = sweep.main(
+    code = sweep_cli.main(
         [str(study), "--out", str(out), "--cache-dir", str(cache), "--serial", "--json"]
     )
     data = json.loads(capsys.readouterr().out)
@@ -547,9 +549,9 @@ def test_sweep_command_writes_tables_report_and_exit_code(plant, cache, tmp_path
 
 def test_grid_report_has_a_plot_per_axis_and_a_bottleneck_map(small_grid, cache):
     result = run_study(small_grid, mode="serial", cache_dir=cache)
-    names = [name for name, _, _ in sweep.study_figures(result)]
+    names = [name for name, _, _ in study_report.study_figures(result)]
     assert names == ["throughput-0", "throughput-1", "bottleneck-map"]
-    page = sweep.sweep_report(result)
+    page = study_report.sweep_report(result)
     assert page.count("data:image/png;base64,") == 3
 
 
@@ -630,7 +632,7 @@ def test_bad_study_files_exit_2_with_one_line_naming_the_field(
 ):
     study = write_study(plant, "bad.yaml", data)
     out = tmp_path / "out"
-    code = sweep.main([str(study), "--out", str(out), "--serial"])
+    code = sweep_cli.main([str(study), "--out", str(out), "--serial"])
     err = capsys.readouterr().err
     assert code == 2
     assert expected in err
@@ -642,9 +644,9 @@ def test_bad_study_files_exit_2_with_one_line_naming_the_field(
 def test_bad_yaml_and_missing_study_file(plant, tmp_path, capsys):
     bad = plant / "broken.yaml"
     bad.write_text("base: [unclosed\n")
-    assert sweep.main([str(bad), "--out", str(tmp_path / "o")]) == 2
+    assert sweep_cli.main([str(bad), "--out", str(tmp_path / "o")]) == 2
     assert re.search(r"line \d+: not valid YAML", capsys.readouterr().err)
-    assert sweep.main([str(plant / "nope.yaml"), "--out", str(tmp_path / "o")]) == 2
+    assert sweep_cli.main([str(plant / "nope.yaml"), "--out", str(tmp_path / "o")]) == 2
     assert "no such study file" in capsys.readouterr().err
     with pytest.raises(StudyError, match="must hold a mapping"):
         (plant / "list.yaml").write_text("- 1\n")

@@ -38,16 +38,21 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
+from optimizer.dwell.histories import CurveSet
+from optimizer.reporting.cells import (
+    COLUMN_LABELS,
+    column_decimals,
+    exact_text,
+    format_cell,
+    is_missing,
+    is_number,
+)
+
 __all__ = [
-    "CurveSet",
     "HtmlReport",
-    "RuleMark",
     "RunInfo",
-    "Stage",
     "TimelineBar",
-    "column_decimals",
     "figure_png",
-    "format_cell",
     "plan_report",
     "shift_timelines",
     "temperature_figure",
@@ -122,11 +127,22 @@ code { font-size: .88em; }
   dl.kv { grid-template-columns: 1fr; }
   dl.kv dd { margin-bottom: .3rem; }
 }
+figure.plot { overflow-x: auto; }
+@media (max-width: 48rem) {
+  /* a plot is never shrunk below the width its smallest text needs: it scrolls */
+  figure.plot img { min-width: var(--plot-min-width, 0); max-width: none; width: 100%; }
+}
+@page { size: A4; margin: 12mm; }
 @media print {
   body { font-size: 10.5pt; }
   main { max-width: none; padding: 0; }
   nav.toc { display: none; }
-  .scroll { overflow: visible; }
+  .scroll, figure.plot { overflow: visible; }
+  figure.plot img { min-width: 0; max-width: 100%; }
+  table { font-size: 7.5pt; width: 100%; }
+  th, td { padding: .15rem .25rem; }
+  th { white-space: normal; overflow-wrap: anywhere; }
+  td { overflow-wrap: anywhere; }
   table, figure, .caution, .note { break-inside: avoid; page-break-inside: avoid; }
   h2, h3 { break-after: avoid; page-break-after: avoid; }
   h2.newpage { break-before: page; page-break-before: always; }
@@ -141,85 +157,50 @@ code { font-size: .88em; }
 # ---------------------------------------------------------------------------
 
 
-def _is_number(value: Any) -> bool:
-    return isinstance(value, int | float | np.integer | np.floating) and not isinstance(
-        value, bool | np.bool_
-    )
-
-
-def _is_missing(value: Any) -> bool:
-    if value is None or value is pd.NA or value is pd.NaT:
-        return True
-    return isinstance(value, float | np.floating) and math.isnan(float(value))
-
-
-def column_decimals(values: pd.Series) -> int:
-    """Decimals to show for a numeric column: none for whole numbers, fewer for large ones."""
-    numbers = pd.to_numeric(values, errors="coerce").astype(float)
-    finite = numbers[np.isfinite(numbers)]
-    if finite.empty:
-        return 1
-    if np.allclose(finite, np.round(finite)):
-        return 0
-    peak = float(np.max(np.abs(finite)))
-    if peak >= 1000:
-        return 0
-    if peak >= 10:
-        return 1
-    if peak >= 0.1:
-        return 2
-    return 4
-
-
-def format_cell(value: Any, decimals: int = 2) -> str:
-    """Readable text for one table cell.
-
-    Parameters
-    ----------
-    value : Any
-        Cell value.
-    decimals : int
-        Decimals for floats.
-
-    Returns
-    -------
-    str
-        ``"–"`` for missing values, ``"yes"``/``"no"`` for booleans, numbers
-        with thousands separators, everything else as ``str``.
-    """
-    if _is_missing(value):
-        return "–"
-    if isinstance(value, bool | np.bool_):
-        return "yes" if value else "no"
-    if isinstance(value, int | np.integer):
-        return f"{int(value):,}"
-    if isinstance(value, float | np.floating):
-        number = float(value)
-        if math.isinf(number):
-            return "∞" if number > 0 else "−∞"
-        return f"{number:,.{decimals}f}"
-    return str(value)
-
-
-def _exact(value: Any) -> str:
-    """Full-precision text of a cell for the ``data-value`` attribute."""
-    if _is_missing(value):
-        return ""
-    if isinstance(value, bool | np.bool_):
-        return "true" if value else "false"
-    if isinstance(value, int | np.integer):
-        return str(int(value))
-    if isinstance(value, float | np.floating):
-        return repr(float(value))
-    return str(value)
-
-
 # ---------------------------------------------------------------------------
 # Figures
 # ---------------------------------------------------------------------------
 
 
-def figure_png(fig: Figure, dpi: int = 130) -> bytes:
+FIGURE_DPI = 130
+"""Resolution of the plots embedded in reports [dots per inch]."""
+
+MIN_TEXT_PX = 9.0
+"""Smallest text a report shows, in CSS pixels; plots keep their text at least this size."""
+
+
+def smallest_text_px(fig: Figure, dpi: float = FIGURE_DPI) -> float | None:
+    """Size of the smallest visible text in a figure, in pixels of its PNG.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure.
+    dpi : float
+        Resolution it is rendered at [dots per inch].
+
+    Returns
+    -------
+    float or None
+        Font size [px] (points times ``dpi / 72``); None when the figure has
+        no text.
+    """
+    from matplotlib.text import Text
+
+    sizes = [
+        t.get_fontsize() for t in fig.findobj(Text) if t.get_visible() and t.get_text().strip()
+    ]
+    return min(sizes) * dpi / 72.0 if sizes else None
+
+
+def png_width(png: bytes) -> int:
+    """Width of a PNG image [px], read from its header."""
+    if png[:8] != b"\x89PNG\r\n\x1a\n":
+        raise ValueError("png: not a PNG file")
+    return int.from_bytes(png[16:20], "big")
+
+
+def figure_png(fig: Figure, dpi: int = FIGURE_DPI) -> bytes:
     """Render a matplotlib figure to PNG bytes.
 
     Parameters
@@ -247,85 +228,6 @@ def _style_axes(ax: Any) -> None:
     ax.tick_params(colors=INK, labelsize=8.5)
     ax.grid(True, color="#e3e6e8", linewidth=0.7)
     ax.set_axisbelow(True)
-
-
-@dataclass(frozen=True)
-class Stage:
-    """A stretch of a temperature history (oven, transfer, a tunnel zone).
-
-    Parameters
-    ----------
-    name : str
-        Label drawn above the stretch.
-    start : float
-        Start time [min].
-    end : float
-        End time [min].
-    air_temperature : float or None
-        Air temperature in the stage [°C], drawn as a thin line when given.
-    """
-
-    name: str
-    start: float
-    end: float
-    air_temperature: float | None = None
-
-
-@dataclass(frozen=True)
-class RuleMark:
-    """A rule drawn on a temperature plot: a target temperature, and a window.
-
-    Parameters
-    ----------
-    label : str
-        Text of the rule, e.g. ``"core ≥ 72 °C"`` or ``"core ≤ 21 °C within 120 min"``.
-    temperature : float
-        Target temperature [°C], drawn as a dashed horizontal line.
-    start : float or None
-        Time from which the rule's clock runs [min] (None: from the start).
-    deadline : float or None
-        Time by which the target must be met [min]; drawn as a vertical line
-        and the window shaded.
-    met_at : float or None
-        Time the model reaches the target [min], marked with a point.
-    """
-
-    label: str
-    temperature: float
-    start: float | None = None
-    deadline: float | None = None
-    met_at: float | None = None
-
-
-@dataclass(frozen=True)
-class CurveSet:
-    """Temperature histories of one product through oven and tunnel.
-
-    Parameters
-    ----------
-    title : str
-        Figure title (product, oven setting, tunnel setting).
-    time_min : sequence of float
-        Times [min] from oven loading.
-    core : sequence of float
-        Core (slowest point) temperature [°C] at those times.
-    surface : sequence of float
-        Surface temperature [°C] at those times.
-    stages : sequence of Stage
-        Stage boundaries to draw.
-    rules : sequence of RuleMark
-        Targets and windows to draw.
-    mean : sequence of float or None
-        Mass-mean temperature [°C], drawn thin when given.
-    """
-
-    title: str
-    time_min: Sequence[float]
-    core: Sequence[float]
-    surface: Sequence[float]
-    stages: Sequence[Stage] = ()
-    rules: Sequence[RuleMark] = ()
-    mean: Sequence[float] | None = None
 
 
 def temperature_figure(curves: CurveSet) -> Figure:
@@ -446,7 +348,7 @@ def temperature_figure(curves: CurveSet) -> Figure:
                 ha="center",
                 va="top",
                 rotation=90,
-                fontsize=6.5,
+                fontsize=7.5,
                 color=MUTED,
             )
     ax.set_ylim(low, high)
@@ -476,7 +378,9 @@ class TimelineBar:
         Colour group (e.g. the product or the air setting); bars of one group
         share a colour.
     kind : str
-        ``"work"`` (solid), ``"setup"`` (hatched: load, unload, changeover).
+        ``"work"`` (solid), ``"setup"`` (hatched: load, unload, changeover),
+        ``"stop"`` (grey, a planned stop) or ``"drain"`` (light: the belt runs
+        on until the last piece has left).
     """
 
     machine: str
@@ -529,7 +433,17 @@ def timeline_figure(
             continue
         width = max(bar.end - bar.start, 0.0)
         face = colour.get(bar.group, ACCENT)
-        if bar.kind == "setup":
+        if bar.kind in ("stop", "drain"):
+            ax.barh(
+                y,
+                width,
+                left=bar.start,
+                height=0.6 if bar.kind == "stop" else 0.3,
+                color="#b9c0c6" if bar.kind == "stop" else "#dde3e6",
+                edgecolor=MUTED,
+                linewidth=0.5,
+            )
+        elif bar.kind == "setup":
             ax.barh(
                 y,
                 width,
@@ -552,7 +466,7 @@ def timeline_figure(
                     bar.label,
                     ha="center",
                     va="center",
-                    fontsize=7,
+                    fontsize=7.5,
                     color="white",
                     clip_on=True,
                 )
@@ -572,6 +486,10 @@ def timeline_figure(
             handles.append(
                 Patch(facecolor="white", edgecolor=MUTED, hatch="////", label="load/unload/change")
             )
+        if any(b.kind == "stop" for b in bars):
+            handles.append(Patch(facecolor="#b9c0c6", edgecolor=MUTED, label="planned stop"))
+        if any(b.kind == "drain" for b in bars):
+            handles.append(Patch(facecolor="#dde3e6", edgecolor=MUTED, label="belt emptying"))
         ax.legend(
             handles=handles,
             fontsize=7.5,
@@ -750,14 +668,14 @@ class HtmlReport:
         for row in frame.itertuples(index=False, name=None):
             cells = []
             for c, value in zip(frame.columns, row, strict=True):
-                if c in as_percent and _is_number(value) and not _is_missing(value):
+                if c in as_percent and is_number(value) and not is_missing(value):
                     shown = f"{100 * float(value):.0f} %"
                 else:
                     shown = format_cell(value, decimals.get(c, 2))
-                is_num = _is_number(value) and not _is_missing(value)
+                is_num = is_number(value) and not is_missing(value)
                 cls = ' class="num"' if is_num or numeric[c] else ""
                 cells.append(
-                    f'<td{cls} data-value="{html.escape(_exact(value), quote=True)}">'
+                    f'<td{cls} data-value="{html.escape(exact_text(value), quote=True)}">'
                     f"{html.escape(shown)}</td>"
                 )
             body_rows.append("<tr>" + "".join(cells) + "</tr>")
@@ -791,13 +709,22 @@ class HtmlReport:
         name : str
             Identifier written as ``data-figure``.
         """
-        png = fig if isinstance(fig, bytes) else figure_png(fig)
+        sizing = ""
+        if isinstance(fig, Figure):
+            png = figure_png(fig, dpi=FIGURE_DPI)
+            smallest = smallest_text_px(fig, FIGURE_DPI)
+            if smallest is not None:
+                # narrowest width [CSS px] at which every text in the plot stays readable
+                least = math.ceil(png_width(png) * MIN_TEXT_PX / smallest)
+                sizing = f' data-min-font-px="{smallest:.2f}" style="--plot-min-width: {least}px"'
+        else:
+            png = fig
         data = base64.b64encode(png).decode("ascii")
         self.figure_count += 1
         ident = html.escape(name or f"figure-{self.figure_count}", quote=True)
         self._add(
-            f'<figure data-figure="{ident}"><img alt="{html.escape(alt, quote=True)}" '
-            f'src="data:image/png;base64,{data}">'
+            f'<figure class="plot" data-figure="{ident}"><img alt="{html.escape(alt, quote=True)}"'
+            f'{sizing} src="data:image/png;base64,{data}">'
             f"<figcaption>{html.escape(caption)}</figcaption></figure>"
         )
 
@@ -1045,28 +972,6 @@ def utilisation_figure(utilisation: pd.DataFrame) -> Figure:
     ax.legend(fontsize=7.5, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     fig.tight_layout()
     return fig
-
-
-COLUMN_LABELS = {
-    "cook_min": "cook [min]",
-    "cycle_min": "cycle [min]",
-    "minutes": "minutes",
-    "kg": "kg",
-    "belt_speed_m_per_min": "belt speed [m/min]",
-    "max_belt_speed_m_per_min": "fastest belt [m/min]",
-    "oven_setting": "oven setting",
-    "tunnel_setting": "tunnel setting",
-    "used_min": "used [min]",
-    "changeover_min": "changeover [min]",
-    "available_min": "available [min]",
-    "utilisation": "utilisation",
-    "per_hour": "per extra hour",
-    "chill_min": "chill [min]",
-    "heat_in_kj_per_kg": "heat in [kJ/kg]",
-    "heat_out_kj_per_kg": "heat out [kJ/kg]",
-    "total_slack": "total slack",
-    "smallest_slack": "smallest slack",
-}
 
 
 def _kv_number(value: float | None, unit: str, decimals: int = 1) -> str:

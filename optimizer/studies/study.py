@@ -97,14 +97,12 @@ calibrated probes in the thickest pieces at the coldest spot before use.
 
 from __future__ import annotations
 
-import argparse
 import copy
 import hashlib
 import itertools
 import json
 import math
 import re
-import sys
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -121,6 +119,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from optimizer.planning.highs import quiet_solver_banner
 from optimizer.scenario.overrides import Change, OverrideError, apply_changes, load_raw
 from optimizer.scenario.units import UnitParseError, parse_quantity
 from optimizer.studies.execute import ExecMode, SweepPoint, done_indices, new_pool, run_points
@@ -133,18 +132,16 @@ __all__ = [
     "StudyPoint",
     "StudySpec",
     "SweepResult",
-    "add_sweep_parser",
-    "cmd_sweep",
+    "axis_numbers",
+    "axis_unit",
     "evaluate_point",
     "load_study",
     "plan_row",
     "purchase_table",
     "results_table",
     "run_study",
-    "run_sweep",
-    "study_figures",
     "sweep_points",
-    "sweep_report",
+    "value_text",
     "warm_dwell",
 ]
 
@@ -765,7 +762,7 @@ def _axis_number(axis: AxisSpec, value: Any) -> float | None:
     return None
 
 
-def _axis_unit(axis: AxisSpec) -> str:
+def axis_unit(axis: AxisSpec) -> str:
     """Unit of an axis's numbers ("" when unknown or plain)."""
     kind = _VALUE_KIND.get(str(axis.what)) if axis.what else None
     if kind is not None:
@@ -779,11 +776,11 @@ def _axis_unit(axis: AxisSpec) -> str:
     return ""
 
 
-def _axis_numbers(axis: AxisSpec) -> list[float | None]:
+def axis_numbers(axis: AxisSpec) -> list[float | None]:
     """Numbers of an axis's values; for ``set:`` axes written with one shared unit."""
     nums = [_axis_number(axis, v) for v in axis.values]
     if axis.what is None and all(n is None for n in nums):
-        unit = _axis_unit(axis)
+        unit = axis_unit(axis)
         if unit:
             out: list[float | None] = []
             for v in axis.values:
@@ -1042,7 +1039,7 @@ def load_study(
                 per_week = pattern.shifts_per_week or per_week
         else:
             params = tuple((a.column(), value_text(v)) for a, v in pairs)
-            numbers = tuple((a.column(), _axis_numbers(a)[a.values.index(v)]) for a, v in pairs)
+            numbers = tuple((a.column(), axis_numbers(a)[a.values.index(v)]) for a, v in pairs)
             points.append(
                 StudyPoint(
                     index=index,
@@ -1186,18 +1183,6 @@ def sweep_points(
         SweepPoint(index=p.index, label=p.name, changes=p.changes, context=context)
         for p in study.points
     ]
-
-
-_BANNER_DONE = False
-
-
-def _quiet_banner() -> None:
-    global _BANNER_DONE
-    if not _BANNER_DONE:
-        from optimizer.cli.app import quiet_solver_banner
-
-        quiet_solver_banner()
-        _BANNER_DONE = True
 
 
 def _scenario_of(point: SweepPoint) -> tuple[Any, dict[str, Any]]:
@@ -1346,7 +1331,7 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
             "has_plan": False,
             "message": str(exc).replace("\n", "; "),
         }
-    _quiet_banner()
+    quiet_solver_banner()
     result = plan(inputs, options)
     return {**head, **plan_row(scenario, dwell, result)}
 
@@ -1708,590 +1693,3 @@ def purchase_table(
             }
         )
     return pd.DataFrame(rows, columns=list(PURCHASE_COLUMNS)), cases
-
-
-# ---------------------------------------------------------------------------
-# Plots and the report
-# ---------------------------------------------------------------------------
-
-_MARKERS = ("o", "s", "^", "D", "v", "P", "X", "*")
-_LINE_STYLES = ("-", "--", ":", "-.", (0, (5, 1)), (0, (1, 3)), (0, (3, 1, 1, 1)), (0, (8, 3)))
-
-
-def _bottleneck_styles(table: pd.DataFrame) -> dict[str, tuple[str, str]]:
-    from optimizer.reporting.html import BAR_COLOURS
-
-    names = [b for b in dict.fromkeys(table["bottleneck"].fillna("")) if b]
-    return {
-        b: (BAR_COLOURS[i % len(BAR_COLOURS)], _MARKERS[i % len(_MARKERS)])
-        for i, b in enumerate(names)
-    }
-
-
-def study_figures(result: SweepResult) -> list[tuple[str, Any, str]]:
-    """The plots of a study: (name, matplotlib Figure, caption).
-
-    For a grid, one plot per axis of kg per week against the axis value (one
-    line per combination of the other axes, at most eight), each point
-    marked by its bottleneck machine, so a change of marker shows where the
-    bottleneck moves; for two axes or more, also a map of the bottleneck over
-    the first two axes. For named points, a bar per point coloured by its
-    bottleneck.
-    """
-    from matplotlib.figure import Figure
-
-    from optimizer.reporting.html import INK, MUTED
-
-    study, table = result.study, result.table
-    styles = _bottleneck_styles(table)
-    planned = table["status"].isin(["optimal", "feasible_with_gap"])
-    figures: list[tuple[str, Any, str]] = []
-
-    def legend(ax: Any, lines: Sequence[tuple[str, str]] = ()) -> None:
-        from matplotlib.lines import Line2D
-
-        handles = [
-            Line2D([], [], color=c, marker=m, linestyle="", label=f"bottleneck: {b}")
-            for b, (c, m) in styles.items()
-        ]
-        if (~planned).any():
-            handles.append(Line2D([], [], color=MUTED, marker="x", linestyle="", label="no plan"))
-        handles += [Line2D([], [], color=MUTED, linestyle=ls, label=text) for text, ls in lines]
-        ax.legend(handles=handles, fontsize=7.5, frameon=False, loc="best")
-
-    def tidy(ax: Any) -> None:
-        ax.spines["top"].set_visible(False)
-        ax.spines["right"].set_visible(False)
-        ax.tick_params(labelsize=8)
-        ax.grid(True, color="#e3e6e8", linewidth=0.6)
-
-    if not study.axes:
-        fig = Figure(figsize=(7.4, 0.9 + 0.42 * max(len(table), 1)))
-        ax = fig.add_subplot(1, 1, 1)
-        labels = list(table["point"])
-        values = [v if math.isfinite(v) else 0.0 for v in table["kg_per_week"]]
-        colours = [styles.get(b, (MUTED, "o"))[0] for b in table["bottleneck"]]
-        ax.barh(labels, values, color=colours)
-        for y, (v, ok) in enumerate(zip(values, planned, strict=True)):
-            ax.text(v, y, f" {v:,.0f}" if ok else " no plan", va="center", fontsize=7.5)
-        ax.invert_yaxis()
-        ax.set_xlabel("kg per week", fontsize=9, color=INK)
-        ax.set_title("Throughput per point (colour: bottleneck)", fontsize=10, loc="left")
-        from matplotlib.patches import Patch
-
-        ax.legend(
-            handles=[Patch(color=c, label=f"bottleneck: {b}") for b, (c, _) in styles.items()],
-            fontsize=7.5,
-            frameon=False,
-            loc="lower right",
-        )
-        tidy(ax)
-        fig.tight_layout()
-        figures.append(
-            (
-                "throughput-points",
-                fig,
-                "kg per week at each point; the colour names the machine that limits it.",
-            )
-        )
-        return figures
-
-    nums = {a.column(): dict(zip(a.values, _axis_numbers(a), strict=True)) for a in study.axes}
-    for a, axis in enumerate(study.axes):
-        col = axis.column()
-        numeric = all(n is not None for n in nums[col].values())
-        order = {value_text(v): i for i, v in enumerate(axis.values)}
-        by_text = {value_text(v): nums[col][v] for v in axis.values}
-        others = [c for c in study.columns if c != col]
-        fig = Figure(figsize=(7.4, 4.2))
-        ax = fig.add_subplot(1, 1, 1)
-        groups = list(table.groupby(others, sort=False)) if others else [((), table)]
-        lines: list[tuple[str, Any]] = []
-        for key, sub in groups[:8]:
-            sub = sub.sort_values(col, key=lambda s: s.map(order))
-            xs = [by_text[v] if numeric else order[v] for v in sub[col]]
-            ys = list(sub["kg_per_week"])
-            ok = list(sub["status"].isin(["optimal", "feasible_with_gap"]))
-            label = ", ".join(
-                f"{c}={v}"
-                for c, v in zip(others, key if isinstance(key, tuple) else (key,), strict=True)
-            )
-            line_x = [x for x, good in zip(xs, ok, strict=True) if good]
-            line_y = [y for y, good in zip(ys, ok, strict=True) if good]
-            style = _LINE_STYLES[len(lines) % len(_LINE_STYLES)]
-            ax.plot(line_x, line_y, color=MUTED, linestyle=style, linewidth=1.0, zorder=1)
-            if label and len(groups) > 1:
-                lines.append((label, style))
-            for x, y, good, b in zip(xs, ys, ok, sub["bottleneck"], strict=True):
-                if good:
-                    c, m = styles.get(b, (MUTED, "o"))
-                    ax.scatter([x], [y], color=c, marker=m, s=36, zorder=3)
-                else:
-                    ax.scatter([x], [0.0], color=MUTED, marker="x", s=36, zorder=3)
-        unit = _axis_unit(axis)
-        ax.set_xlabel(f"{col}" + (f" [{unit}]" if unit and numeric else ""), fontsize=9)
-        ax.set_ylabel("kg per week", fontsize=9)
-        if not numeric:
-            ax.set_xticks(range(len(axis.values)))
-            ax.set_xticklabels([value_text(v) for v in axis.values], fontsize=8)
-        shown = "" if len(groups) <= 8 else f" (first 8 of {len(groups)} lines)"
-        ax.set_title(f"Throughput against {col}{shown}", fontsize=10, loc="left")
-        legend(ax, lines)
-        tidy(ax)
-        fig.tight_layout()
-        figures.append(
-            (
-                f"throughput-{a}",
-                fig,
-                f"kg per week against {col}; marker colour and shape name the bottleneck, "
-                "so a change of marker is where the bottleneck moves.",
-            )
-        )
-    if len(study.axes) >= 2:
-        ca, cb = study.columns[:2]
-        fig = Figure(figsize=(7.4, 4.4))
-        ax = fig.add_subplot(1, 1, 1)
-        xa = {value_text(v): i for i, v in enumerate(study.axes[0].values)}
-        xb = {value_text(v): i for i, v in enumerate(study.axes[1].values)}
-        first = table.drop_duplicates([ca, cb])
-        for _, r in first.iterrows():
-            ok = r["status"] in ("optimal", "feasible_with_gap")
-            c, m = styles.get(r["bottleneck"], (MUTED, "x")) if ok else (MUTED, "x")
-            ax.scatter([xa[r[ca]]], [xb[r[cb]]], color=c, marker=m, s=140, zorder=3)
-            if ok:
-                ax.annotate(
-                    f"{r['kg_per_week']:,.0f}",
-                    (xa[r[ca]], xb[r[cb]]),
-                    fontsize=6.5,
-                    xytext=(0, 9),
-                    textcoords="offset points",
-                    ha="center",
-                )
-        ax.set_xticks(range(len(xa)))
-        ax.set_xticklabels(list(xa), fontsize=8)
-        ax.set_yticks(range(len(xb)))
-        ax.set_yticklabels(list(xb), fontsize=8)
-        ax.set_xlabel(ca, fontsize=9)
-        ax.set_ylabel(cb, fontsize=9)
-        extra = " (other axes at their first value)" if len(study.axes) > 2 else ""
-        ax.set_title(f"Bottleneck over {ca} and {cb}{extra}", fontsize=10, loc="left")
-        ax.margins(0.15)
-        legend(ax)
-        tidy(ax)
-        fig.tight_layout()
-        figures.append(
-            (
-                "bottleneck-map",
-                fig,
-                f"The bottleneck at each combination of {ca} and {cb}, labelled with kg per week.",
-            )
-        )
-    return figures
-
-
-MONEY_CAUTION = (
-    "Payback and NPV rest on the modelled throughput, the margin per kg and the costs "
-    "entered; they are estimates for comparing options, not a quotation.",
-    "A changed plant (a longer tunnel, colder air, another oven) needs its own validation "
-    "with calibrated probes before any plan made for it is used.",
-)
-
-
-def sweep_report(
-    result: SweepResult,
-    *,
-    command: str = "",
-    generated: str = "",
-    tool_version: str = "",
-    study_sha256: str = "",
-) -> str:
-    """The comparison report of a study: one self-contained HTML page.
-
-    Sections: the food-safety caution, a summary (base point and best
-    point), the purchase options side by side with payback and NPV, the
-    plots, the results table, and the points without a plan.
-    """
-    from optimizer.reporting.html import SAFETY_CAUTION, HtmlReport
-
-    study, table = result.study, result.table
-    plant = str(study.base_raw.get("plant", study.base_path.stem))
-    currency = str(study.base_raw.get("currency", ""))
-    report = HtmlReport(
-        f"What-if study: {study.title}",
-        f"{plant} · base {study.spec.base} · {len(table)} points"
-        + (f" · made {generated}" if generated else ""),
-    )
-    report.caution("Food safety", [*SAFETY_CAUTION, *MONEY_CAUTION])
-    if study.spec.description:
-        report.paragraph(study.spec.description)
-
-    report.section("Summary")
-    planned = table[table["status"].isin(["optimal", "feasible_with_gap"])]
-    base = table.iloc[study.base_index]
-    pairs: list[tuple[str, Any]] = [
-        ("points", len(table)),
-        ("points with a plan", len(planned)),
-        ("base point", base["point"]),
-        ("base kg per week", base["kg_per_week"]),
-        ("base bottleneck", base["bottleneck"] or "-"),
-    ]
-    if not planned.empty:
-        best = planned.loc[planned["kg_per_week"].idxmax()]
-        pairs += [
-            ("most kg per week at", best["point"]),
-            ("its kg per week", best["kg_per_week"]),
-            ("its bottleneck", best["bottleneck"] or "-"),
-        ]
-    report.key_values(pairs)
-    report.paragraph(
-        "kg per week is the planned kg per shift times the shifts a week; the marginal "
-        "value is the bottleneck's shadow price (objective units per extra machine hour); "
-        "energy is the heat put into the product in the ovens plus the heat taken out in "
-        "the tunnels (product heat, not metered machine energy)."
-    )
-
-    if study.spec.purchases:
-        report.section("Purchase options")
-        fin = study.spec.finance
-        assert fin is not None
-        report.paragraph(
-            f"Against the base point {base['point']!r}; {fin.years} years at "
-            f"{100 * fin.discount_rate:g} % a year, {fin.weeks_per_year:g} production weeks a "
-            f"year; money in {currency or 'the scenario currency'}."
-        )
-        report.table(
-            "purchases",
-            result.purchases,
-            caption="Extra margin, simple payback and NPV per option",
-            empty_text="no purchase options",
-        )
-        notes = [f"{r.option}: {r.note}" for r in result.purchases.itertuples() if r.note]
-        if notes:
-            report.bullets(notes)
-
-    report.section("Throughput and bottleneck")
-    for name, fig, caption in study_figures(result):
-        report.figure(fig, caption=caption, alt=caption, name=name)
-
-    report.section("All points")
-    report.table(
-        "sweep",
-        table,
-        caption="One plan per point",
-        percent=[c for c in table.columns if c.startswith("util:")],
-    )
-    failed = table[~table["status"].isin(["optimal", "feasible_with_gap"])]
-    if not failed.empty:
-        report.heading("Points without a plan")
-        report.bullets(f"{r.point}: {r.status}: {r.message}" for r in failed.itertuples())
-    report.footer("study", str(study.path))
-    if study_sha256:
-        report.footer("study sha256", study_sha256)
-    report.footer("base scenario", str(study.base_path))
-    if tool_version:
-        report.footer("corepace version", tool_version)
-    if command:
-        report.footer("command", command)
-    return report.render()
-
-
-# ---------------------------------------------------------------------------
-# The command
-# ---------------------------------------------------------------------------
-
-
-def add_sweep_parser(subparsers: Any) -> argparse.ArgumentParser:
-    """Add ``corepace sweep STUDY`` to the command's subparsers.
-
-    Parameters
-    ----------
-    subparsers : argparse._SubParsersAction
-        What ``ArgumentParser.add_subparsers`` returned.
-
-    Returns
-    -------
-    argparse.ArgumentParser
-        The ``sweep`` parser (its ``func`` is :func:`cmd_sweep`).
-    """
-    from optimizer.cli import app as cli
-
-    p = subparsers.add_parser(
-        "sweep",
-        help="what-if study: one plan per point of a grid or list, and purchase payback",
-        description="Plan every point of a study (a base scenario and a grid or a list of "
-        "changes), then write sweep.csv, purchases.csv, sweep.xlsx, sweep.json and the "
-        "comparison report sweep.html. Points run in a local process pool by default, on "
-        "a Dask cluster with --cluster. Finished points are kept in OUT/points; running "
-        "the same command again resumes an interrupted sweep.\nExit 1 when a point has "
-        "no feasible plan (its row says why).",
-        epilog="examples:\n  corepace sweep configs/study_tunnel.yaml\n"
-        "  corepace sweep configs/study_tunnel.yaml --workers 4 --out reports/tunnel\n"
-        "  corepace sweep study.yaml --cluster tcp://10.0.0.5:8786 --cache-dir /shared/dwell\n",
-        formatter_class=cli._Formatter,
-    )
-    p.add_argument("study", metavar="STUDY", help="study file (.yaml)")
-    group = p.add_argument_group("where points run")
-    where = group.add_mutually_exclusive_group()
-    where.add_argument(
-        "--serial", action="store_true", help="plan the points one by one in this process"
-    )
-    where.add_argument(
-        "--cluster",
-        metavar="ADDRESS",
-        help="Dask scheduler address (tcp://host:port); --cache-dir must be a path every "
-        "worker reaches",
-    )
-    group.add_argument(
-        "--workers",
-        type=_workers,
-        metavar="N",
-        help="processes of the local pool (default: the number of CPUs)",
-    )
-    group.add_argument(
-        "--restart",
-        action="store_true",
-        help="forget the points finished by an earlier run of this study",
-    )
-    cli._scenario_options(p)
-    cli._solve_options(p)
-    cli._common(p)
-    cli._cache_options(p)
-    p.set_defaults(func=cmd_sweep)
-    return p
-
-
-def _workers(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number >= 1, got {text!r}") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"must be a whole number >= 1, got {text!r}")
-    return value
-
-
-def _sweep_json(result: SweepResult, files: Sequence[Path]) -> dict[str, Any]:
-    from optimizer.reporting import export
-
-    study = result.study
-    return {
-        "study": str(study.path),
-        "title": study.title,
-        "base": str(study.base_path),
-        "base_point": study.points[study.base_index].name,
-        "points": len(study.points),
-        "planned": int(result.table["status"].isin(["optimal", "feasible_with_gap"]).sum()),
-        "files": [str(f) for f in files],
-        "tables": {
-            "sweep": export.table_records(result.table),
-            "purchases": export.table_records(result.purchases),
-        },
-    }
-
-
-def _shown(table: pd.DataFrame, columns: Sequence[str]) -> pd.DataFrame:
-    return table[[c for c in columns if c in table.columns]]
-
-
-def cmd_sweep(args: argparse.Namespace, ui: Any) -> int:
-    """``corepace sweep STUDY``: the study's plans, tables, plots and report.
-
-    Raises
-    ------
-    optimizer.cli.app.BadInput
-        For a bad study file or option, or a ``--cluster`` address where no
-        scheduler answers (nothing is written).
-    """
-    from optimizer.cli import app as cli
-    from optimizer.scenario.overrides import parse_assignment
-
-    study_path = Path(args.study)
-    if not study_path.is_file():
-        raise cli.BadInput([f"{args.study}: no such study file"])
-    changes, problems = [], []
-    for text in getattr(args, "set", None) or []:
-        try:
-            changes.append(parse_assignment(text))
-        except OverrideError as exc:
-            problems.append(str(exc))
-    if problems:
-        raise cli.BadInput(problems)
-    with ui.status(f"checking {args.study}"):
-        try:
-            study = load_study(study_path, changes)
-        except StudyError as exc:
-            raise cli.BadInput(exc.problems) from None
-    target = cli.out_dir(args, args.study)
-    if args.cluster:
-        mode = ExecMode.CLUSTER
-    elif args.serial or args.workers == 1:
-        mode = ExecMode.SERIAL
-    else:
-        mode = ExecMode.POOL
-    # reach the scheduler before anything is written: a bad address is bad input
-    client = _connect(args.cluster) if mode is ExecMode.CLUSTER else None
-    try:
-        return _sweep_into(target, study, study_path, args, ui, mode, client)
-    finally:
-        if client is not None:
-            client.close()
-
-
-def _connect(address: str) -> Any:
-    """A Dask client on the scheduler at ``address``.
-
-    Raises
-    ------
-    optimizer.cli.app.BadInput
-        One line when dask.distributed is missing, the address is malformed
-        or no scheduler answers within :data:`CLUSTER_CONNECT_TIMEOUT_S`.
-    """
-    from optimizer.cli import app as cli
-
-    try:
-        from distributed import Client
-    except ImportError:
-        raise cli.BadInput(
-            ["--cluster: dask.distributed is not installed; install the 'sweep' extra"]
-        ) from None
-    try:
-        return Client(address, timeout=CLUSTER_CONNECT_TIMEOUT_S)
-    except (OSError, ValueError, TypeError) as exc:
-        reason = " ".join(str(exc).split()) or type(exc).__name__
-        raise cli.BadInput([f"--cluster {address}: cannot connect ({reason})"]) from None
-
-
-def _sweep_into(
-    target: Path,
-    study: Study,
-    study_path: Path,
-    args: argparse.Namespace,
-    ui: Any,
-    mode: ExecMode,
-    client: Any,
-) -> int:
-    """Run the points of a loaded study and write its tables and report into ``target``."""
-    from optimizer.cli import app as cli
-    from optimizer.reporting import export
-
-    cli._prepare_out(target)
-    done_dir = target / "points"
-    if args.restart and done_dir.is_dir():
-        for f in done_dir.glob("*.json"):
-            f.unlink()
-    options = {"time_limit_s": args.time_limit, "gap_rel": args.gap, "solver": args.solver}
-    points = sweep_points(study, cache_dir=cli.cache_dir(args), **options)
-    already = len(done_indices(points, done_dir))
-    if already:
-        ui.say(f"resuming: {already} of {len(study.points)} points done in {done_dir}")
-    cli.quiet_solver_banner()
-    try:
-        with ui.progress("sweep") as bar:
-            result = run_study(
-                study,
-                mode=mode,
-                workers=args.workers,
-                cluster=client,
-                cache_dir=cli.cache_dir(args),
-                done_dir=done_dir,
-                on_done=lambda done, total, text: bar(done, total, text),
-                **options,
-            )
-    except KeyboardInterrupt:
-        kept = len(done_indices(points, done_dir))
-        ui.problem(
-            f"corepace sweep: interrupted; {kept} of {len(study.points)} points kept in "
-            f"{done_dir}; run the same command again to resume"
-        )
-        return 130
-    except OSError as exc:
-        if mode is ExecMode.CLUSTER:  # connected at the start: failed on the way
-            kept = len(done_indices(points, done_dir))
-            raise cli.BadInput(
-                [
-                    f"--cluster {args.cluster}: the sweep failed ({exc}); {kept} of "
-                    f"{len(study.points)} points kept in {done_dir}; run the same command "
-                    "again to resume"
-                ]
-            ) from None
-        raise
-    protect = [args.study, str(study.base_path)]
-    with ui.status("writing the report"):
-        tables = {"sweep": result.table, "purchases": result.purchases}
-        written = export.write_tables(target, tables, workbook="sweep.xlsx", protect=protect)
-        html_text = sweep_report(
-            result,
-            command=getattr(args, "argv_text", ""),
-            generated=cli.made_at(),
-            tool_version=cli.tool_version(),
-            study_sha256=cli.file_sha256(study_path),
-        )
-        written.append(export.atomic_write_text(target / "sweep.html", html_text, protect=protect))
-        written.append(
-            export.write_json(target / "sweep.json", _sweep_json(result, written), protect=protect)
-        )
-    data = _sweep_json(result, written)
-    ui.emit_json(data)
-    shown = ["point", *study.columns, "status", "kg_per_shift", "kg_per_week", "bottleneck"]
-    shown += ["marginal_value", "energy_kwh"]
-    ui.say(cli.rich_table(_shown(result.table, shown), title=f"Sweep — {study.title}"))
-    if not result.purchases.empty:
-        cols = ["option", "point", "extra_kg_per_week", "extra_margin_per_year"]
-        cols += ["simple_payback_years", "npv", "option_bottleneck", "note"]
-        ui.say(cli.rich_table(_shown(result.purchases, cols), title="Purchase options"))
-    cli._written(ui, written)
-    failed = result.table[~result.table["status"].isin(["optimal", "feasible_with_gap"])]
-    for r in failed.itertuples():
-        ui.problem(
-            f"{r.point}: no feasible plan ({r.status}){': ' + r.message if r.message else ''}"
-        )
-    n = len(result.table)
-    ui.result(f"{n - len(failed)} of {n} points planned → {target / 'sweep.html'}")
-    return cli.EXIT_OK if failed.empty else cli.EXIT_NO_PLAN
-
-
-def run_sweep(args: argparse.Namespace, ui: Any | None = None) -> int:
-    """Run ``corepace sweep`` from parsed arguments and return the exit code.
-
-    Bad input (study file, options) gives one line per problem on stderr and
-    exit 2 with nothing written; 1 when a point has no feasible plan; 0 done.
-
-    Parameters
-    ----------
-    args : argparse.Namespace
-        Arguments parsed by the parser of :func:`add_sweep_parser`.
-    ui : optimizer.cli.app.Ui, optional
-        Terminal output (default: from ``--quiet``/``--json``).
-    """
-    from optimizer.cli import app as cli
-
-    ui = ui or cli.Ui(quiet=args.quiet, json_mode=args.json)
-    try:
-        return cmd_sweep(args, ui)
-    except cli.BadInput as exc:
-        for line in exc.problems:
-            ui.problem(line)
-        ui.emit_json({"status": "bad_input", "problems": list(exc.problems)})
-        return cli.EXIT_BAD_INPUT
-
-
-def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m optimizer.studies.study STUDY ...``: the same as ``corepace sweep STUDY ...``."""
-    from optimizer.cli import app as cli
-
-    parser = argparse.ArgumentParser(prog="corepace", formatter_class=cli._Formatter)
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    add_sweep_parser(sub)
-    items = list(sys.argv[1:] if argv is None else argv)
-    if not items or items[0] != "sweep":
-        items = ["sweep", *items]
-    try:
-        args = parser.parse_args(items)
-    except SystemExit as exc:
-        return int(exc.code or 0) if not isinstance(exc.code, str) else cli.EXIT_BAD_INPUT
-    args.argv_text = " ".join(["corepace", *items])
-    return run_sweep(args)
-
-
-if __name__ == "__main__":  # pragma: no cover
-    raise SystemExit(main())

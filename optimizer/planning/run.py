@@ -1,0 +1,191 @@
+"""One plan run: a validated scenario, its dwell table, the solve and the tables.
+
+:class:`PlanRun` is what the ``corepace plan`` command, the reports and a
+notebook share (``optimizer.plan_scenario`` returns one).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import pandas as pd
+
+from optimizer.dwell.describe import rules_table
+from optimizer.dwell.histories import CurveSet, Route, route_history
+from optimizer.dwell.table import DWELL_KEYS, ruled_out_table
+from optimizer.planning.adapter import plan_inputs
+from optimizer.planning.highs import quiet_solver_banner
+from optimizer.planning.inputs import PlanInputs, SolveOptions
+from optimizer.planning.results import PlanResult, plan_tables, summary_text
+from optimizer.planning.solve import plan
+from optimizer.scenario.models import Scenario
+from optimizer.scenario.provenance import file_sha256, resolved_sha256
+
+__all__ = ["PlanRun", "dwell_used_table", "main_routes", "solve_run", "temperature_curves"]
+
+
+@dataclass
+class PlanRun:
+    """Everything one plan run produced (for the report, the exports and JSON).
+
+    Parameters
+    ----------
+    path : str
+        Scenario file as given.
+    sha256 : str
+        Hash of the scenario file.
+    resolved_sha256 : str
+        Hash of the validated scenario content
+        (:func:`optimizer.scenario.provenance.resolved_sha256`).
+    scenario : optimizer.scenario.models.Scenario
+        The validated scenario.
+    dwell : pandas.DataFrame
+        Its dwell table.
+    inputs : optimizer.planning.inputs.PlanInputs
+        Planner inputs.
+    result : optimizer.planning.results.PlanResult
+        The plan (or diagnosis).
+    tables : dict of str to pandas.DataFrame
+        Every table exported and shown in the report.
+    """
+
+    path: str
+    sha256: str
+    resolved_sha256: str
+    scenario: Scenario
+    dwell: pd.DataFrame
+    inputs: PlanInputs
+    result: PlanResult
+    tables: dict[str, pd.DataFrame]
+
+    def summary(self) -> str:
+        """The plan's summary in words (status, objective, kg, bottleneck)."""
+        return summary_text(self.result)
+
+
+def solve_run(
+    path: str, scenario: Scenario, dwell: pd.DataFrame, options: SolveOptions | None = None
+) -> PlanRun:
+    """Planner inputs, the solve and every table of one validated scenario.
+
+    Parameters
+    ----------
+    path : str
+        Scenario file the scenario came from (hashed into the run).
+    scenario : optimizer.scenario.models.Scenario
+        The validated scenario.
+    dwell : pandas.DataFrame
+        Its dwell table (:func:`optimizer.dwell.table.build_dwell_table`).
+    options : optimizer.planning.inputs.SolveOptions, optional
+        Solver options (default: :class:`SolveOptions` defaults).
+
+    Returns
+    -------
+    PlanRun
+        The run, with the plan tables plus ``rules``, ``dwell_used`` and
+        ``dwell_ruled_out``.
+    """
+    inputs = plan_inputs(scenario, dwell)
+    quiet_solver_banner()
+    result = plan(inputs, options if options is not None else SolveOptions())
+    tables = dict(plan_tables(result))
+    planned = sorted({o.product for o in inputs.orders})
+    tables["rules"] = rules_table(scenario, planned)
+    tables["dwell_used"] = dwell_used_table(dwell, result)
+    tables["dwell_ruled_out"] = ruled_out_table(dwell, planned)
+    return PlanRun(
+        path,
+        file_sha256(path),
+        resolved_sha256(scenario),
+        scenario,
+        dwell,
+        inputs,
+        result,
+        tables,
+    )
+
+
+def dwell_used_table(dwell: pd.DataFrame, result: PlanResult) -> pd.DataFrame:
+    """The dwell-table rows behind the plan's tunnel runs (one per combination used)."""
+    used = {
+        (r.product, r.oven, r.oven_setting, r.tunnel, r.tunnel_setting, r.loading)
+        for r in result.runs
+    }
+    if not used or dwell.empty:
+        return dwell.iloc[0:0][[c for c in dwell.columns if c in _DWELL_USED_COLUMNS]]
+    keys = list(zip(*(dwell[c] for c in DWELL_KEYS), strict=True))
+    mask = [k in used for k in keys]
+    columns = [c for c in _DWELL_USED_COLUMNS if c in dwell.columns]
+    return dwell.loc[mask, columns].sort_values(DWELL_KEYS).reset_index(drop=True)
+
+
+_DWELL_USED_COLUMNS = (
+    *DWELL_KEYS,
+    "cook_min",
+    "cook_binding",
+    "cook_method",
+    "chill_min",
+    "chill_binding",
+    "chill_method",
+    "max_belt_speed_m_per_min",
+    "heat_in_kj_per_kg",
+    "heat_out_kj_per_kg",
+)
+
+
+def main_routes(run: PlanRun) -> list[Route]:
+    """The main planned route of each product: its tunnel run carrying the most kg.
+
+    Ties go to the first route in key order; the cook time is the dwell
+    table's (margin included) and the belt speed the planned one.
+
+    Parameters
+    ----------
+    run : PlanRun
+        A plan run.
+
+    Returns
+    -------
+    list of optimizer.dwell.histories.Route
+        One per planned product, in product order (empty without a plan).
+    """
+    if not run.result.status.has_plan or not run.result.runs:
+        return []
+    kg: dict[tuple[str, ...], float] = {}
+    speed: dict[tuple[str, ...], float] = {}
+    for r in run.result.runs:
+        key = (r.product, r.oven, r.oven_setting, r.tunnel, r.tunnel_setting, r.loading)
+        kg[key] = kg.get(key, 0.0) + r.kg
+        speed[key] = r.belt_speed_m_per_min
+    best: dict[str, tuple[str, ...]] = {}
+    for key in sorted(kg):
+        if key[0] not in best or kg[key] > kg[best[key[0]]]:
+            best[key[0]] = key
+    table = run.dwell.set_index(DWELL_KEYS)
+    return [
+        Route(*best[name], float(table.loc[best[name], "cook_min"]), speed[best[name]])
+        for name in sorted(best)
+    ]
+
+
+def temperature_curves(run: PlanRun) -> list[tuple[str, CurveSet, str]]:
+    """Core and surface histories of each planned product at its main planned route.
+
+    Routes from :func:`main_routes`, histories from
+    :func:`optimizer.dwell.histories.route_history`.
+
+    Parameters
+    ----------
+    run : PlanRun
+        A plan run.
+
+    Returns
+    -------
+    list of (product, CurveSet, caption)
+        One entry per planned product, in product order.
+    """
+    out = []
+    for route in main_routes(run):
+        curve, caption = route_history(run.scenario, route)
+        out.append((route.product, curve, caption))
+    return out
