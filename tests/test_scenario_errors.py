@@ -230,7 +230,8 @@ CASES = [
         "unknown-top-level-field",
         _set("ovenz", []),
         "ovenz: unknown field (did you mean 'ovens'?); accepted fields: plant, description, "
-        "currency, ovens, tunnels, products, shifts, orders, rules, objective, safety_margin",
+        "currency, ovens, tunnels, products, shifts, orders, rules, objective, safety_margin, "
+        "back_to_back",
     ),
     (
         "unknown-objective",

@@ -7,7 +7,12 @@ holds minutes [min], kilograms [kg], metres [m] and belt speeds [m/min].
 
 Mapping choices (documented here because the two sides differ slightly):
 
-- An oven's ``load_unload_min`` is its load plus unload minutes.
+- An oven's ``load_unload_min`` is its load plus unload minutes, of which
+  ``unload_min`` its unload minutes.
+- A tunnel's ``transfer_min`` is its ``transfer.duration`` (0 without a
+  transfer) and its ``hot_hold_min`` its own ``hot_hold_max``.
+- A shift's stops pass through (machine, minutes, reason, optional start)
+  for the timed schedule to place.
 - A shift's ``minutes`` is its minutes less the stops that apply to every
   machine; a machine whose own figure differs (an override in ``machines`` or
   a stop of that machine alone) gets an entry in ``machine_minutes``.
@@ -33,6 +38,7 @@ from optimizer.planning.inputs import (
     PlanInputs,
     ProductData,
     ShiftData,
+    StopData,
     TunnelData,
 )
 from optimizer.scenario.models import Scenario
@@ -59,7 +65,8 @@ def _shift(scenario: Scenario, shift) -> ShiftData:
     common = shift.minutes - sum(s.minutes for s in shift.stops if s.machine is None)
     own = {m: shift.available(m) for m in machines}
     differ = {m: v for m, v in own.items() if abs(v - common) > 1e-9}
-    return ShiftData(name=shift.name, minutes=max(common, 0.0), machine_minutes=differ)
+    stops = tuple(StopData(x.minutes, x.machine, x.reason, x.start) for x in shift.stops)
+    return ShiftData(name=shift.name, minutes=max(common, 0.0), machine_minutes=differ, stops=stops)
 
 
 def plan_inputs(scenario: Scenario, dwell: pd.DataFrame) -> PlanInputs:
@@ -93,6 +100,7 @@ def plan_inputs(scenario: Scenario, dwell: pd.DataFrame) -> PlanInputs:
             settings=tuple(s.name for s in o.settings),
             load_unload_min=o.load_time + o.unload_time,
             changeover_min=o.changeover,
+            unload_min=o.unload_time,
         )
         for o in scenario.ovens
     )
@@ -106,6 +114,8 @@ def plan_inputs(scenario: Scenario, dwell: pd.DataFrame) -> PlanInputs:
             settings=tuple(s.name for s in t.settings),
             loadings=tuple(LoadingOption(x.name, x.coverage) for x in t.loadings),
             changeover_min=t.changeover,
+            transfer_min=0.0 if t.transfer is None else t.transfer.duration,
+            hot_hold_min=math.inf if t.hot_hold_max is None else t.hot_hold_max,
         )
         for t in scenario.tunnels
     )
@@ -143,4 +153,5 @@ def plan_inputs(scenario: Scenario, dwell: pd.DataFrame) -> PlanInputs:
         dwell=dwell,
         objective=_OBJECTIVES[scenario.objective.kind],
         fixed_output_kg=scenario.objective.fixed_output,
+        back_to_back=scenario.back_to_back,
     )

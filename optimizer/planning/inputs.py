@@ -127,6 +127,10 @@ class OvenData:
         Minutes to change from one air setting to another [min]. The first
         setting of a shift is free: it is set in the time already taken off
         the shift.
+    unload_min : float
+        Of ``load_unload_min``, the minutes of unloading [min]; the timed
+        schedule loads for ``load_unload_min - unload_min`` before the cook
+        and unloads for ``unload_min`` after it.
     """
 
     name: str
@@ -135,6 +139,7 @@ class OvenData:
     settings: tuple[str, ...]
     load_unload_min: float = 0.0
     changeover_min: float = 0.0
+    unload_min: float = 0.0
 
     def __post_init__(self) -> None:
         w = f"oven {self.name!r}"
@@ -144,8 +149,12 @@ class OvenData:
         _number(w, "capacity_kg", self.capacity_kg, strict=True)
         object.__setattr__(self, "settings", tuple(self.settings))
         _keys(w, "settings", self.settings)
-        _number(w, "load_unload_min", self.load_unload_min)
+        both = _number(w, "load_unload_min", self.load_unload_min)
         _number(w, "changeover_min", self.changeover_min)
+        if _number(w, "unload_min", self.unload_min) > both:
+            raise PlanInputError(
+                f"{w}.unload_min: must be <= load_unload_min ({both:g}), got {self.unload_min!r}"
+            )
 
 
 @dataclass(frozen=True)
@@ -195,6 +204,12 @@ class TunnelData:
         one product at one tunnel setting (changing the loading inside a run
         is free) [min]. The first run of a shift is free: the tunnel is set
         up in the time already taken off the shift.
+    transfer_min : float
+        Shortest wait between oven unload and belt entry (the transfer) [min].
+    hot_hold_min : float
+        The tunnel's own longest wait between oven unload and belt entry
+        [min]; ``inf`` for none. The dwell table's chill cells hold for any
+        wait from ``transfer_min`` to this limit (they are checked at both).
     """
 
     name: str
@@ -205,6 +220,8 @@ class TunnelData:
     settings: tuple[str, ...]
     loadings: tuple[LoadingOption, ...]
     changeover_min: float = 0.0
+    transfer_min: float = 0.0
+    hot_hold_min: float = math.inf
 
     def __post_init__(self) -> None:
         w = f"tunnel {self.name!r}"
@@ -224,6 +241,11 @@ class TunnelData:
             raise PlanInputError(f"{w}.loadings: needs at least one LoadingOption")
         _keys(w, "loadings", tuple(x.name for x in self.loadings))
         _number(w, "changeover_min", self.changeover_min)
+        tr = _number(w, "transfer_min", self.transfer_min)
+        if _number(w, "hot_hold_min", self.hot_hold_min, strict=True, allow_inf=True) < tr:
+            raise PlanInputError(
+                f"{w}.hot_hold_min: must be >= transfer_min ({tr:g}), got {self.hot_hold_min!r}"
+            )
 
     def coverage(self, loading: str) -> float:
         """Belt coverage of loading option ``loading`` [-]."""
@@ -272,6 +294,43 @@ class ProductData:
 
 
 @dataclass(frozen=True)
+class StopData:
+    """A planned stop (cleaning, maintenance) of one machine or of every machine.
+
+    Parameters
+    ----------
+    minutes : float
+        Length of the stop [min].
+    machine : str or None
+        Oven or tunnel key; ``None`` for every machine.
+    reason : str
+        Text for the schedule.
+    start : float or None
+        Start from the start of the shift [min]; ``None`` lets the schedule
+        place it.
+    """
+
+    minutes: float
+    machine: str | None = None
+    reason: str = ""
+    start: float | None = None
+
+    def __post_init__(self) -> None:
+        w = "stop" if self.machine is None else f"stop of {self.machine!r}"
+        _number(w, "minutes", self.minutes)
+        if self.machine is not None:
+            _text("stop", "machine", self.machine)
+        if not isinstance(self.reason, str):
+            raise PlanInputError(f"{w}.reason: must be a string, got {self.reason!r}")
+        if self.start is not None:
+            _number(w, "start", self.start)
+
+    def applies_to(self, machine: str) -> bool:
+        """True when the stop stops ``machine``."""
+        return self.machine is None or self.machine == machine
+
+
+@dataclass(frozen=True)
 class ShiftData:
     """A shift of the planning horizon.
 
@@ -285,11 +344,16 @@ class ShiftData:
     machine_minutes : mapping of str to float
         Per-machine override of ``minutes`` (oven or tunnel name -> minutes)
         for planned stops of one machine [min].
+    stops : tuple of StopData
+        The planned stops already taken off the minutes, for the timed
+        schedule to place; a machine's clock span in the shift is its
+        available minutes plus its stops (:meth:`window`).
     """
 
     name: str
     minutes: float
     machine_minutes: Mapping[str, float] = field(default_factory=dict)
+    stops: tuple[StopData, ...] = ()
 
     def __post_init__(self) -> None:
         w = f"shift {self.name!r}"
@@ -300,10 +364,21 @@ class ShiftData:
             _text(w, "machine_minutes key", k)
             mm[k] = _number(w, f"machine_minutes[{k!r}]", v)
         object.__setattr__(self, "machine_minutes", MappingProxyType(mm))
+        object.__setattr__(self, "stops", tuple(self.stops))
+        if not all(isinstance(x, StopData) for x in self.stops):
+            raise PlanInputError(f"{w}.stops: entries must be StopData")
 
     def available(self, machine: str) -> float:
         """Available minutes of ``machine`` in this shift [min]."""
         return float(self.machine_minutes.get(machine, self.minutes))
+
+    def stops_of(self, machine: str) -> tuple[StopData, ...]:
+        """The stops of ``machine`` in this shift, in the order given."""
+        return tuple(x for x in self.stops if x.applies_to(machine))
+
+    def window(self, machine: str) -> float:
+        """Clock span of ``machine`` in this shift: available minutes plus its stops [min]."""
+        return self.available(machine) + sum(x.minutes for x in self.stops_of(machine))
 
 
 @dataclass(frozen=True)
@@ -455,6 +530,9 @@ class PlanInputs:
     fixed_output_kg : float or None
         Total output [kg] the LEAST_ENERGY objective must reach; ``None`` =
         the order minimums.
+    back_to_back : bool
+        Shifts run back to back: a tunnel belt may carry product from one
+        shift into the next (never past the last shift).
     """
 
     ovens: tuple[OvenData, ...]
@@ -465,6 +543,7 @@ class PlanInputs:
     dwell: pd.DataFrame
     objective: Objective = Objective.MOST_KG
     fixed_output_kg: float | None = None
+    back_to_back: bool = False
 
     def __post_init__(self) -> None:
         for name in ("ovens", "tunnels", "products", "shifts", "orders"):
@@ -509,6 +588,11 @@ class PlanInputs:
                     f"shift {s.name!r}.machine_minutes: unknown machines {unknown}; "
                     f"known: {machines}"
                 )
+            for x in s.stops:
+                if x.machine is not None and x.machine not in machines:
+                    raise PlanInputError(
+                        f"shift {s.name!r}.stops: unknown machine {x.machine!r}; known: {machines}"
+                    )
         if not isinstance(self.objective, Objective):
             raise PlanInputError(
                 f"inputs.objective: must be an Objective ({[o.value for o in Objective]}), "

@@ -26,6 +26,7 @@ checked against the plant's food-safety plan and local codes), from a
 from __future__ import annotations
 
 import difflib
+import itertools
 import math
 import re
 import types
@@ -1042,6 +1043,10 @@ class PlannedStop(_Model):
     machine: Name | None = Field(None, description="Oven or tunnel name; omit for every machine.")
     minutes: Minutes = Field(description="Minutes lost [min].")
     reason: Text = Field("", description="e.g. cleaning, maintenance.")
+    start: Minutes | None = Field(
+        None,
+        description=("Start from the start of the shift [min]; omit to let the schedule place it."),
+    )
 
 
 class Shift(_Model):
@@ -1113,6 +1118,35 @@ class SafetyMargin(_Model):
 # ---------------------------------------------------------------------------- scenario
 
 
+def _fixed_stop_problems(i: int, shift: Shift, machines: list[str]) -> list[str]:
+    """Stops with a start time that run past their machine's minutes or overlap."""
+    out = []
+    for j, stop in enumerate(shift.stops):
+        if stop.start is None:
+            continue
+        span = [shift.machines.get(m, shift.minutes) for m in machines if stop.machine in (None, m)]
+        if span and stop.start + stop.minutes > min(span) + 1e-9:
+            out.append(
+                f"shifts[{i}].stops[{j}].start: the stop ends at "
+                f"{_fmt(stop.start + stop.minutes)} min, after its machine's "
+                f"{_fmt(min(span))} min in the shift"
+            )
+    for m in machines:
+        fixed = sorted(
+            (x.start, x.start + x.minutes, j)
+            for j, x in enumerate(shift.stops)
+            if x.start is not None and x.machine in (None, m)
+        )
+        for (_, end, _), (start, _, j) in itertools.pairwise(fixed):
+            if start < end - 1e-9:
+                out.append(
+                    f"shifts[{i}].stops[{j}].start: overlaps another stop of {m!r} "
+                    f"(which ends at {_fmt(end)} min)"
+                )
+                return out
+    return out
+
+
 class Scenario(_Model):
     """A validated plant scenario (use :func:`load_scenario` to read one from a file)."""
 
@@ -1131,6 +1165,13 @@ class Scenario(_Model):
     )
     objective: Objective = Field(default_factory=Objective)
     safety_margin: SafetyMargin = Field(default_factory=SafetyMargin)
+    back_to_back: bool = Field(
+        False,
+        description=(
+            "Shifts run back to back: a tunnel belt may carry product from one shift "
+            "into the next (never past the last shift)."
+        ),
+    )
 
     @model_validator(mode="after")
     def _cross(self, info: ValidationInfo) -> Scenario:
@@ -1402,6 +1443,7 @@ def _cross_field_problems(
                     f"min) exceed its available minutes"
                 )
                 break
+        out.extend(_fixed_stop_problems(i, s, sorted(machines - {_ANY})))
 
     # orders
     product_names = names("products", products)
