@@ -115,6 +115,7 @@ from optimizer.dwell.convert import (
 )
 from optimizer.dwell.errors import CacheWarning
 from optimizer.dwell.stages import hold_waits, transfer_stage, tunnel_zones
+from optimizer.dwell.workers import pool_initializer
 from optimizer.scenario.models import (
     Oven,
     OvenSetting,
@@ -798,7 +799,10 @@ def _compute(
     # a fixed share of the tasks per worker; a cell's value does not depend on the
     # other cells batched with it, so neither the split nor the timing matters
     shares = [tasks[i::n_workers] for i in range(n_workers)]
-    with ProcessPoolExecutor(max_workers=n_workers, mp_context=context) as pool:
+    initializer, initargs = pool_initializer()  # no orphans when this process is killed
+    with ProcessPoolExecutor(
+        max_workers=n_workers, mp_context=context, initializer=initializer, initargs=initargs
+    ) as pool:
         futures = {
             pool.submit(_run_tasks, scenario, share, store, options): share for share in shares
         }
