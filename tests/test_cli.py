@@ -50,6 +50,7 @@ PLAN_TABLES = (
     "rules",
     "dwell_used",
     "dwell_ruled_out",
+    "assumptions",
 )
 
 
@@ -731,7 +732,7 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
         tunnel = tunnels[run.tunnel]
         setting = next(s for s in tunnel.settings if s.name == run.tunnel_setting)
         loading = next(opt for opt in tunnel.loadings if opt.name == run.loading)
-        zones = stages.tunnel_zones(tunnel, setting, convert.loading_factor(loading))
+        zones = stages.tunnel_zones(tunnel, setting, convert.loading_factor(loading, setting))
         rule = convert.chill_rule(scenario.chill_rule(spec), 0.0)
         _, start = exit_profile[(run.shift, run.product, run.oven, run.oven_setting)]
         residence = tunnel.length / run.belt_speed_m_per_min * 60.0

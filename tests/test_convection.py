@@ -15,8 +15,12 @@ from thermal.air import air_properties, humidity_ratio_from_relative
 from thermal.convection import (
     CORRELATIONS,
     DEFAULT_LOADING_FACTOR,
+    EXTRAPOLATION_OVERSTATES,
+    EXTRAPOLATION_UNDERSTATES,
+    EXTRAPOLATION_UNKNOWN,
     AirSetting,
     ConvectionResult,
+    coverage_loading_factor,
     nusselt_flat_plate,
     nusselt_flat_plate_turbulent,
     surface_coefficient,
@@ -181,6 +185,34 @@ def test_loading_factor_multiplies_convection_only():
     assert packed.loading_factor == 0.7
 
 
+@settings(max_examples=60, deadline=None)
+@given(
+    st.floats(min_value=0.0, max_value=1.0, allow_nan=False),
+    st.floats(min_value=0.0, max_value=1.0, allow_nan=False),
+)
+def test_coverage_loading_factor_falls_with_coverage(a, b):
+    # The estimate is monotone (more coverage never gives a higher h), stays
+    # inside the accepted loading factors and never exceeds a lone piece's 1.
+    low, high = sorted((a, b))
+    assert coverage_loading_factor(high) <= coverage_loading_factor(low)
+    assert 0.5 <= coverage_loading_factor(high) <= 1.0
+
+
+def test_coverage_loading_factor_is_one_for_a_single_piece():
+    # A single piece on an empty belt (coverage -> 0) is the free-air piece the
+    # correlations describe: factor 1, the DEFAULT_LOADING_FACTOR.
+    assert coverage_loading_factor(0.0) == DEFAULT_LOADING_FACTOR == 1.0
+    assert coverage_loading_factor(1e-9) == pytest.approx(1.0, abs=1e-9)
+    assert coverage_loading_factor(0.8) == pytest.approx(0.6)
+    assert coverage_loading_factor(1.0) == pytest.approx(0.5)
+
+
+@pytest.mark.parametrize("bad", [-0.1, 1.2, float("nan")])
+def test_coverage_loading_factor_refuses_coverage_outside_0_1(bad):
+    with pytest.raises(ThermalInputError, match=r"^coverage: must be in \[0\.0, 1\.0\]"):
+        coverage_loading_factor(bad)
+
+
 def test_measured_h_overrides_correlations():
     air = AirSetting(180.0, 2.0, measured_h=42.0)
     res = surface_coefficient(cylinder(), air, surface_temperature=20.0, emissivity=0.9)
@@ -272,6 +304,41 @@ def test_warnings_in_result_match_emitted():
         res = surface_coefficient(sphere(0.03), AirSetting(0.0, 2.0), surface_temperature=80.0)
     assert {str(w.message) for w in record} == set(res.warnings)
     assert any("mu/mu_s" in w for w in res.warnings)
+
+
+@pytest.mark.parametrize(
+    ("key", "values", "phrase"),
+    [
+        # A laminar form past transition misses the turbulent rise: h too low.
+        ("flat_plate_laminar", {"Re": 2.0e6}, EXTRAPOLATION_UNDERSTATES),
+        # A turbulent-from-the-edge form on a laminar layer: h too high.
+        ("flat_plate_turbulent", {"Re": 1.0e4}, EXTRAPOLATION_OVERSTATES),
+        # Whitaker below Re 3.5 tends to the conduction floor Nu = 2: h too low.
+        ("sphere_whitaker", {"Re": 1.0}, EXTRAPOLATION_UNDERSTATES),
+        ("sphere_whitaker", {"mu/mu_s": 0.9}, EXTRAPOLATION_UNKNOWN),
+        ("horizontal_plate_upper", {"Ra": 10.0}, EXTRAPOLATION_UNDERSTATES),
+        ("horizontal_plate_lower", {"Ra": 1.0e12}, EXTRAPOLATION_UNKNOWN),
+    ],
+)
+def test_out_of_range_warning_says_which_way_h_is_likely_wrong(key, values, phrase):
+    # Common practice (module notes of thermal.convection): the likely error
+    # of each extrapolation, which decides whether it could shorten a dwell.
+    (message,) = CORRELATIONS[key].out_of_range(**values)
+    assert message.endswith(f"result extrapolated, {phrase}")
+
+
+def test_every_out_of_range_warning_names_a_direction():
+    phrases = (EXTRAPOLATION_UNDERSTATES, EXTRAPOLATION_OVERSTATES, EXTRAPOLATION_UNKNOWN)
+    for key, corr in CORRELATIONS.items():
+        for quantity, (low, high) in corr.validity.items():
+            for value in (
+                low / 10.0 if low > 0 else None,
+                high * 10.0 if high < math.inf else None,
+            ):
+                if value is None:
+                    continue
+                (message,) = corr.out_of_range(**{quantity: value})
+                assert message.endswith(phrases), (key, quantity, message)
 
 
 @settings(max_examples=40, deadline=None)

@@ -247,7 +247,7 @@ def _direct(product: str, setting: str, loading_factor: float, options: SolverOp
     ("product", "setting", "loading", "factor"),
     [
         ("cocktail-sausage", "steam", "full", 0.8),
-        ("cocktail-sausage", "hot-air", "spaced", 1.0),
+        ("cocktail-sausage", "hot-air", "spaced", 0.75),  # no h_factor: 1 - 0.5 x 50 %
         ("thin-patty", "hot-air", "full", 0.8),
     ],
 )

@@ -280,7 +280,7 @@ def test_plan_inputs_maps_the_scenario_to_planner_data():
     assert oven.name == "rack-oven-1" and oven.load_unload_min == 14.0
     assert oven.settings == ("roast-180", "cook-150")
     tunnel = inputs.tunnels[0]
-    assert tunnel.length_m == 24.0 and tunnel.coverage("full") == pytest.approx(0.8)
+    assert tunnel.length_m == 34.0 and tunnel.coverage("full") == pytest.approx(0.8)
     assert inputs.objective is Objective.MOST_VALUE
     early, late, tue = inputs.shifts
     assert early.minutes == 450.0 and dict(early.machine_minutes) == {}

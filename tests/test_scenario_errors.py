@@ -192,8 +192,8 @@ CASES = [
     (
         "zones-do-not-cover-the-tunnel",
         _set("tunnels/0/settings/1/zones/0/length_fraction", 0.3),
-        "tunnels[0].settings[1].zones: zone shares must cover the tunnel length 24 m exactly, "
-        "got 21.6 m (0.9 of it)",
+        "tunnels[0].settings[1].zones: zone shares must cover the tunnel length 34 m exactly, "
+        "got 30.6 m (0.9 of it)",
     ),
     (
         "speed-and-measured-h",

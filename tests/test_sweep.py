@@ -391,7 +391,7 @@ def test_tunnel_and_air_changes_against_the_demo_values(tmp_path):
         ],
     )
     tunnel = raw["tunnels"][0]
-    assert tunnel["length"] == pytest.approx(24.0 + 6.0)  # demo: 24 m
+    assert tunnel["length"] == pytest.approx(34.0 + 6.0)  # demo: 34 m
     assert tunnel["belt_width"] == pytest.approx(1.2)
     temps = [z["air_temperature"] for s in tunnel["settings"] for z in s["zones"]]
     assert temps == pytest.approx([2 - 5, -2 - 5, -4 - 5, -8 - 5])  # demo zones: 2, -2, -4, -8 °C

@@ -39,16 +39,36 @@ Loading factor
 Products packed on a belt or tray shield each other and share boundary
 layers, which lowers h; rows that trip the flow or mesh belts with air
 passing through can raise it. The loading factor multiplies the convective
-part (not radiation): 1.0 (the default, ``DEFAULT_LOADING_FACTOR``) is a
-single piece in free air; accepted values are in (0, 1.5]. It is a
-plant-specific calibration (common practice: fit it to a measured cooling
-or heating curve of a loaded belt or tray), not a published correlation.
+part (not radiation): 1.0 (``DEFAULT_LOADING_FACTOR``) is a single piece in
+free air; accepted values are in (0, 1.5]. It is a plant-specific
+calibration (common practice: fit it to a measured cooling or heating curve
+of a loaded belt or tray), not a published correlation.
+
+Where no calibrated factor is given for a belt loading,
+:func:`coverage_loading_factor` estimates one from the belt coverage c:
+``1 - 0.5 c`` (:data:`COVERAGE_LOADING_SLOPE`). That dense loading lowers h
+is common practice; the rule's numbers are a planning estimate of this
+module, chosen to lean slow, not a published correlation. It reasons that
+on a fully covered belt the pieces' sides touch and their undersides meet
+the air only through the belt, so about half the surface of a flat piece
+sees the free stream, and scales linearly from a lone piece (factor 1 as
+c -> 0) to that. Limits: one layer of pieces on a belt, c in [0, 1]; piled
+or stacked product, pieces in trays or lidded containers, and solid belts
+under thick pieces can shade more than the rule assumes. It is an
+assumption to calibrate from probe logs, never a measurement.
 
 Validity
 --------
 Each correlation in :data:`CORRELATIONS` carries its published validity
 ranges; outside them a :class:`thermal.errors.ValidityWarning` names the
-range and the value (mild extrapolation is allowed, never silent). Condensation
+range and the value (mild extrapolation is allowed, never silent) and says
+which way the extrapolated h is likely wrong: understated (the dwell errs
+long), overstated (the dwell may come out short) or unknown. The likely
+directions are common practice, judged per correlation and bound: a power
+law in Re or Ra fitted above its lower bound tends to zero below it, where
+conduction and the other mode keep h up (understated); a laminar form used
+past transition misses the turbulent rise (understated); a turbulent form
+used on a laminar boundary layer overstates h. Condensation
 on a surface colder than the dew point of humid air (steam ovens) is not
 modelled and also triggers a warning: h is then underestimated. Buoyancy is
 taken from temperature alone (β = 1/T_film for an ideal gas); density
@@ -80,7 +100,11 @@ from thermal.errors import ThermalInputError, ValidityWarning
 
 __all__ = [
     "CORRELATIONS",
+    "COVERAGE_LOADING_SLOPE",
     "DEFAULT_LOADING_FACTOR",
+    "EXTRAPOLATION_OVERSTATES",
+    "EXTRAPOLATION_UNDERSTATES",
+    "EXTRAPOLATION_UNKNOWN",
     "GRAVITY",
     "MIXED_EXPONENT",
     "STEFAN_BOLTZMANN",
@@ -89,6 +113,7 @@ __all__ = [
     "AirSetting",
     "ConvectionResult",
     "Correlation",
+    "coverage_loading_factor",
     "nusselt_cylinder_churchill_bernstein",
     "nusselt_flat_plate",
     "nusselt_flat_plate_laminar",
@@ -121,6 +146,19 @@ DEFAULT_LOADING_FACTOR = 1.0
 
 LOADING_FACTOR_RANGE = (0.0, 1.5)
 """Accepted loading factors: 0 < factor <= 1.5 [-]."""
+
+COVERAGE_LOADING_SLOPE = 0.5
+"""Fall of the estimated loading factor per unit belt coverage [-] (see the
+module notes: a planning estimate, not a published value)."""
+
+EXTRAPOLATION_UNDERSTATES = "likely understating h (the dwell errs long)"
+"""Validity-warning phrase: outside its range the correlation likely gives too low an h."""
+
+EXTRAPOLATION_OVERSTATES = "likely overstating h (the dwell may come out short)"
+"""Validity-warning phrase: outside its range the correlation likely gives too high an h."""
+
+EXTRAPOLATION_UNKNOWN = "the direction of the error is unknown"
+"""Validity-warning phrase: no known direction of the extrapolation error."""
 
 VALIDITY_MARGIN = 0.05
 """Relative margin on the printed validity bounds of the correlations [-]."""
@@ -507,6 +545,10 @@ class Correlation:
     surface : str
         Surface kind it applies to: ``"cylinder"``, ``"sphere"``, ``"plate"``
         (parallel flow), ``"vertical_plate"``, ``"plate_up"``, ``"plate_down"``.
+    extrapolation : mapping of str to (str, str)
+        Per validity key, the likely error of h below and above the range
+        (:data:`EXTRAPOLATION_UNDERSTATES`, :data:`EXTRAPOLATION_OVERSTATES`
+        or :data:`EXTRAPOLATION_UNKNOWN`, the default); see the module notes.
     """
 
     name: str
@@ -515,6 +557,9 @@ class Correlation:
     reference: str
     mode: str
     surface: str
+    extrapolation: Mapping[str, tuple[str, str]] = field(
+        default_factory=lambda: MappingProxyType({})
+    )
 
     def out_of_range(self, **values: float) -> tuple[str, ...]:
         """Messages for each given value outside the validity ranges.
@@ -529,15 +574,25 @@ class Correlation:
             if quantity not in self.validity or value is None or math.isnan(value):
                 continue
             low, high = self.validity[quantity]
-            if value < low * (1.0 - VALIDITY_MARGIN) or value > high * (1.0 + VALIDITY_MARGIN):
+            below = value < low * (1.0 - VALIDITY_MARGIN)
+            if below or value > high * (1.0 + VALIDITY_MARGIN):
+                sides = self.extrapolation.get(
+                    quantity, (EXTRAPOLATION_UNKNOWN, EXTRAPOLATION_UNKNOWN)
+                )
                 messages.append(
                     f"{self.name}: {quantity} = {value:.4g} outside the validity range "
-                    f"[{low:.4g}, {high:.4g}]; result extrapolated"
+                    f"[{low:.4g}, {high:.4g}]; result extrapolated, {sides[0 if below else 1]}"
                 )
         return tuple(messages)
 
 
 _INF = math.inf
+# likely error of h outside a range (common practice; see the module notes)
+_UNDER, _OVER, _UNKNOWN = (
+    EXTRAPOLATION_UNDERSTATES,
+    EXTRAPOLATION_OVERSTATES,
+    EXTRAPOLATION_UNKNOWN,
+)
 _BERGMAN = (
     "Bergman, Lavine, Incropera, DeWitt (2011), Fundamentals of Heat and Mass Transfer, 7th ed."
 )
@@ -559,6 +614,7 @@ CORRELATIONS: Mapping[str, Correlation] = MappingProxyType(
             "Whitaker (1972), AIChE J. 18, 361; " + _BERGMAN + " eq. 7.56",
             "forced",
             "sphere",
+            MappingProxyType({"Re": (_UNDER, _UNKNOWN)}),
         ),
         "flat_plate": Correlation(
             "flat plate, laminar or mixed (Re_c = 5e5)",
@@ -575,6 +631,7 @@ CORRELATIONS: Mapping[str, Correlation] = MappingProxyType(
             _BERGMAN + " eq. 7.30",
             "forced",
             "plate",
+            MappingProxyType({"Re": (_UNKNOWN, _UNDER)}),
         ),
         "flat_plate_turbulent": Correlation(
             "flat plate, turbulent from the leading edge",
@@ -583,6 +640,7 @@ CORRELATIONS: Mapping[str, Correlation] = MappingProxyType(
             _BERGMAN + " eq. 7.38 with Re_x,c = 0",
             "forced",
             "plate",
+            MappingProxyType({"Re": (_OVER, _UNKNOWN)}),
         ),
         "horizontal_cylinder_churchill_chu": Correlation(
             "Churchill-Chu horizontal cylinder, natural convection",
@@ -619,6 +677,7 @@ CORRELATIONS: Mapping[str, Correlation] = MappingProxyType(
             "McAdams (1954); Lloyd & Moran (1974); " + _BERGMAN + " eqs. 9.30-9.31",
             "natural",
             "plate_up",
+            MappingProxyType({"Ra": (_UNDER, _UNKNOWN)}),
         ),
         "horizontal_plate_lower": Correlation(
             "horizontal plate, hot face down or cold face up, natural convection",
@@ -627,6 +686,7 @@ CORRELATIONS: Mapping[str, Correlation] = MappingProxyType(
             "Radziemska & Lewandowski (2001); " + _BERGMAN + " eq. 9.32",
             "natural",
             "plate_down",
+            MappingProxyType({"Ra": (_UNDER, _UNKNOWN)}),
         ),
     }
 )
@@ -892,6 +952,33 @@ def _faces(geometry: Any, hot: bool) -> tuple[list[_Face], float]:
         "geometry: must be a thermal.geometry shape with kind 'slab', 'cylinder', 'sphere', "
         f"'finite_cylinder' or 'block', got {kind!r}"
     )
+
+
+def coverage_loading_factor(coverage: float) -> float:
+    """Estimated loading factor of a belt loading from its coverage [-].
+
+    ``1 - COVERAGE_LOADING_SLOPE * coverage``: 1 for a lone piece
+    (coverage 0), 0.75 at 50 %, 0.6 at 80 %, 0.5 on a fully covered belt.
+    Used where no calibrated factor is given; it leans slow but is not a
+    bound (see the module notes for its reasoning and limits).
+
+    Parameters
+    ----------
+    coverage : float
+        Fraction of the belt area covered by product [-], in [0, 1].
+
+    Returns
+    -------
+    float
+        Factor on the convective part of h [-], in [0.5, 1].
+
+    Raises
+    ------
+    ThermalInputError
+        Coverage not a number in [0, 1].
+    """
+    c = _scalar("coverage", in_range("coverage", coverage, 0.0, 1.0))
+    return 1.0 - COVERAGE_LOADING_SLOPE * c
 
 
 # --------------------------------------------------------------------------

@@ -21,7 +21,7 @@ from optimizer.cli.options import (
     add_scenario_options,
     add_solve_options,
 )
-from optimizer.cli.terminal import Ui, rich_table
+from optimizer.cli.terminal import Ui, rich_table, say_assumptions
 from optimizer.planning.highs import quiet_solver_banner
 from optimizer.planning.run import PlanRun, solve_run
 from optimizer.scenario.models import Scenario
@@ -92,6 +92,7 @@ def plan_summary(run: PlanRun, ui: Ui) -> None:
     """Print the plan's summary and its tables readably."""
     r = run.result
     ui.say(run.summary())
+    say_assumptions(ui, run.tables.get("assumptions"))
     if r.status.has_plan:
         ui.say(rich_table(run.tables["totals"], title="kg per product and shift"))
         ui.say(rich_table(run.tables["ovens"], title="Oven batches"))

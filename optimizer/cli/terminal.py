@@ -12,6 +12,7 @@ from typing import Any
 
 import pandas as pd
 from rich.console import Console
+from rich.markup import escape
 from rich.progress import (
     BarColumn,
     MofNCompleteColumn,
@@ -22,10 +23,11 @@ from rich.progress import (
 )
 from rich.table import Table
 
+from optimizer.planning.rounding import format_minutes, format_speed, safe_rounding
 from optimizer.reporting import export
-from optimizer.reporting.cells import COLUMN_LABELS, column_decimals, format_cell
+from optimizer.reporting.cells import COLUMN_LABELS, display_decimals, format_cell
 
-__all__ = ["Ui", "render_dwell_table", "rich_table"]
+__all__ = ["Ui", "render_dwell_table", "rich_table", "say_assumptions"]
 
 
 @dataclass
@@ -139,12 +141,15 @@ def rich_table(table: pd.DataFrame, *, title: str) -> Table:
     """Any table as a rich table (numbers right-aligned, rounded for reading)."""
     out = Table(title=title, title_justify="left", header_style="bold")
     numeric = {c: pd.api.types.is_numeric_dtype(table[c]) for c in table.columns}
-    decimals = [column_decimals(table[c]) if numeric[c] else 2 for c in table.columns]
+    decimals = [display_decimals(c, table[c]) if numeric[c] else 2 for c in table.columns]
+    rounding = [safe_rounding(str(c)) for c in table.columns]
     for c in table.columns:
         label = COLUMN_LABELS.get(str(c), str(c).replace("_", " "))
         out.add_column(label, justify="right" if numeric[c] else "left")
     for row in table.itertuples(index=False, name=None):
-        out.add_row(*(format_cell(v, d) for v, d in zip(row, decimals, strict=True)))
+        out.add_row(
+            *(format_cell(v, d, w) for v, d, w in zip(row, decimals, rounding, strict=True))
+        )
     return out
 
 
@@ -177,7 +182,7 @@ def render_dwell_table(table: pd.DataFrame, *, title: str = "Dwell table") -> Ta
     def minutes(value: float, method: str) -> str:
         if not math.isfinite(value):
             return "—"
-        return f"{value:.1f}" + (f" ({method[0]})" if method else "")
+        return format_minutes(value) + (f" ({method[0]})" if method else "")
 
     for r in table.itertuples(index=False):
         if r.feasible:
@@ -190,14 +195,42 @@ def render_dwell_table(table: pd.DataFrame, *, title: str = "Dwell table") -> Ta
             f"{r.tunnel} / {r.tunnel_setting} / {r.loading}",
             minutes(r.cook_min, r.cook_method),
             minutes(r.chill_min, r.chill_method),
-            "—"
-            if not math.isfinite(r.max_belt_speed_m_per_min)
-            else f"{r.max_belt_speed_m_per_min:.2f}",
+            format_speed(r.max_belt_speed_m_per_min),
             status,
             style=None if r.feasible else "dim",
         )
     out.caption = (
-        "(s) exact series, (n) finite volumes; largest piece, safety margin included. "
+        "(s) exact series, (n) finite volumes; largest piece, safety margin included; "
+        "minutes rounded up, belt speeds down. "
         "Model estimates: validate with probes against the plant's food-safety plan."
     )
     return out
+
+
+_LEANS = {
+    "shorter": "could shorten the dwell",
+    "unknown": "either way",
+    "longer": "lengthens it (safe side)",
+}
+
+
+def say_assumptions(ui: Ui, register: pd.DataFrame | None) -> None:
+    """Print the assumptions register, one line each, those that could shorten a dwell first.
+
+    Parameters
+    ----------
+    ui : Ui
+        Where to print (nothing with ``--quiet`` or ``--json``).
+    register : pandas.DataFrame or None
+        :func:`optimizer.dwell.assumptions.assumptions_table` (None: nothing).
+    """
+    if register is None or register.empty:
+        return
+    risky = int((register["direction"] == "shorter").sum())
+    ui.say(
+        f"Assumptions in force: {len(register)} ({risky} could shorten a dwell; "
+        "the report lists them with notes):"
+    )
+    for a in register.itertuples(index=False):
+        line = f"  - {a.topic}: {a.value}; {a.applies_to} — {_LEANS.get(a.direction, a.direction)}"
+        ui.say(escape(line))

@@ -1,12 +1,22 @@
-"""``corepace validate SCENARIO``: check a scenario file and list every problem."""
+"""``corepace validate SCENARIO``: check a scenario file and list every problem.
+
+A valid scenario also gets the assumptions register without physics
+(:func:`optimizer.dwell.assumptions.assumptions`) as warnings: every default
+or estimate the dwell table would apply, most dangerous first. Warnings never
+change the exit code.
+"""
 
 from __future__ import annotations
 
 import argparse
 
+from rich.markup import escape
+
 from optimizer.cli.common import EXIT_OK, load
 from optimizer.cli.options import Formatter, add_common, add_scenario_options
 from optimizer.cli.terminal import Ui
+from optimizer.dwell.assumptions import assumption_lines, assumptions, assumptions_table
+from optimizer.reporting import export
 from optimizer.scenario.models import Scenario
 
 __all__ = ["add_parser", "cmd_validate"]
@@ -32,9 +42,28 @@ def cmd_validate(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace validate SCENARIO``: check a scenario file."""
     scenario = load(args.scenario, args)
     summary = _scenario_summary(scenario)
-    ui.emit_json({"scenario": args.scenario, "valid": True, "problems": [], **summary})
+    # defaults and estimates the dwell table would apply: warnings, never a failure
+    register = assumptions(scenario)
+    ui.emit_json(
+        {
+            "scenario": args.scenario,
+            "valid": True,
+            "problems": [],
+            **summary,
+            "warnings": assumption_lines(register),
+            "assumptions": export.table_records(assumptions_table(register)),
+        }
+    )
     parts = ", ".join(f"{v} {k}" for k, v in summary.items())
     ui.result(f"{args.scenario}: valid ({parts})" if parts else f"{args.scenario}: valid")
+    if register:
+        risky = sum(a.direction == "shorter" for a in register)
+        ui.say(
+            f"{len(register)} assumption(s) in force ({risky} could shorten a dwell); give "
+            "the field named to replace one:"
+        )
+        for line in assumption_lines(register):
+            ui.say(escape(f"warning: {line}"))
     return EXIT_OK
 
 

@@ -197,7 +197,7 @@ def _check_stage(
         stages = [transfer_stage(tunnel.transfer, wait) for wait in hold_waits(tunnel)]
         process.check_stages(piece, t_start, transfer=stages[0])
     if tunnel is not None and setting is not None and option is not None:
-        zones = tunnel_zones(tunnel, setting, loading_factor(option))
+        zones = tunnel_zones(tunnel, setting, loading_factor(option, setting))
         process.check_stages(piece, t_start, zones=zones)
 
 

@@ -20,11 +20,12 @@ from optimizer.scenario.models import (
     SlabGeometry,
     SphereGeometry,
     TransferStage,
+    TunnelSetting,
     TunnelZone,
 )
 from optimizer.scenario.units import minutes_to_seconds
 from thermal.air import humidity_ratio_from_dew_point
-from thermal.convection import DEFAULT_LOADING_FACTOR, AirSetting
+from thermal.convection import AirSetting, coverage_loading_factor
 from thermal.foods import Composition as ThermalComposition
 from thermal.foods import ConstantProperties, FoodProperties
 from thermal.geometry import Block, FiniteCylinder, InfiniteCylinder, Shape, Slab, Sphere
@@ -199,6 +200,20 @@ def chill_rule(
     return ChillRule(steps, None if exit_max is None else exit_max - margin_k)
 
 
-def loading_factor(option: LoadingOption) -> float:
-    """The factor on h of a tunnel loading option [-] (the physics' default when not given)."""
-    return DEFAULT_LOADING_FACTOR if option.h_factor is None else float(option.h_factor)
+def loading_factor(option: LoadingOption, setting: TunnelSetting | None = None) -> float:
+    """The factor on h of a tunnel loading option in a tunnel setting [-].
+
+    The loading's calibrated ``h_factor`` when given. Otherwise 1 when every
+    zone of ``setting`` gives a measured h (taken as measured on the loaded
+    belt), else the estimate from the coverage,
+    :func:`thermal.convection.coverage_loading_factor` (``1 - 0.5 coverage``,
+    leaning slow), which then also multiplies the measured zones of a mixed
+    setting. Both defaults are assumptions the reports list
+    (:mod:`optimizer.dwell.assumptions`). ``setting`` None: h from
+    correlations.
+    """
+    if option.h_factor is not None:
+        return float(option.h_factor)
+    if setting is not None and all(z.measured_h is not None for z in setting.zones):
+        return 1.0
+    return coverage_loading_factor(option.coverage)

@@ -14,7 +14,7 @@ from optimizer.scenario.models import (
 )
 from thermal.convection import CORRELATIONS
 
-__all__ = ["duration_text", "methods_used", "rule_text", "rules_table"]
+__all__ = ["duration_text", "margin_text", "methods_used", "rule_text", "rules_table"]
 
 
 def duration_text(minutes: float) -> str:
@@ -67,8 +67,11 @@ def rules_table(scenario: Scenario, products: Sequence[str]) -> pd.DataFrame:
     -------
     pandas.DataFrame
         Columns product, cook_rule, cook_requirement, cook_source, chill_rule,
-        chill_requirement, chill_source.
+        chill_requirement, chill_source, margin. The requirements are as the
+        rules state them; ``margin`` says what the calculation adds on top
+        (kept apart so a target is never read with the margin folded in).
     """
+    margin = margin_text(scenario)
     rows = []
     for name in products:
         product = scenario.product(name)
@@ -85,6 +88,7 @@ def rules_table(scenario: Scenario, products: Sequence[str]) -> pd.DataFrame:
                 else "inline",
                 "chill_requirement": rule_text(chill),
                 "chill_source": chill.source,
+                "margin": margin,
             }
         )
     return pd.DataFrame(
@@ -97,8 +101,22 @@ def rules_table(scenario: Scenario, products: Sequence[str]) -> pd.DataFrame:
             "chill_rule",
             "chill_requirement",
             "chill_source",
+            "margin",
         ],
     )
+
+
+def margin_text(scenario: Scenario) -> str:
+    """The scenario's safety margin in words, as the dwell table applies it."""
+    m = scenario.safety_margin
+    parts = []
+    if m.core_temperature:
+        parts.append(
+            f"cook targets +{m.core_temperature:g} K, chill limits −{m.core_temperature:g} K"
+        )
+    if m.time_fraction:
+        parts.append(f"every cook and chill time +{100 * m.time_fraction:g} %")
+    return "calculated with " + "; ".join(parts) if parts else "none"
 
 
 _SHAPE_CORRELATIONS = {
@@ -137,7 +155,9 @@ def methods_used(dwell: pd.DataFrame, scenario: Scenario) -> list[tuple[str, str
             "fraction below the initial freezing point)",
             "Choi & Okos (1986); ASHRAE Handbook — Refrigeration, chapter 'Thermal Properties "
             "of Foods'; Schwartzberg (1976), J. Food Sci. 41, 152; Pham (1996), J. Food Eng. "
-            "30, 95",
+            "30, 95; water: Popiel & Wojtkowiak (1998), Heat Transfer Eng. 19(3), 87 "
+            "(specific heat), Ramires et al. (1995), J. Phys. Chem. Ref. Data 24, 1377 "
+            "(conductivity)",
         )
     )
     methods.append(

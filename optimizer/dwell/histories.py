@@ -251,7 +251,7 @@ def route_history(scenario: Scenario, route: Route) -> tuple[CurveSet, str]:
     tset = next(s for s in tunnel.settings if s.name == tset_name)
     loading = next(x for x in tunnel.loadings if x.name == loading_name)
     residence_min = tunnel.length / belt_speed
-    factor = convert.loading_factor(loading)
+    factor = convert.loading_factor(loading, tset)
     transfer = (
         transfer_stage(tunnel.transfer, tunnel.transfer.duration)
         if tunnel.transfer is not None

@@ -626,7 +626,7 @@ class _Keys:
             if ck not in cooks:
                 cooks[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
                 chills_of[ck] = {}
-            factor = loading_factor(loading)
+            factor = loading_factor(loading, tset)
             key = dwell_cache_key(
                 _chill_inputs(scenario, product, cooks[ck], tunnel, tset, factor, options), salt
             )

@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 import pandas as pd
 
+from optimizer.dwell.assumptions import assumptions, assumptions_table
 from optimizer.dwell.describe import rules_table
 from optimizer.dwell.histories import CurveSet, Route, route_history
 from optimizer.dwell.table import DWELL_KEYS, ruled_out_table, verify_rows
@@ -89,8 +90,9 @@ def solve_run(
     Returns
     -------
     PlanRun
-        The run, with the plan tables plus ``rules``, ``dwell_used`` and
-        ``dwell_ruled_out``.
+        The run, with the plan tables plus ``rules``, ``dwell_used``,
+        ``dwell_ruled_out`` and ``assumptions`` (the register of the planned
+        products' dwell rows, :mod:`optimizer.dwell.assumptions`).
     """
     dwell, inputs, result = plan_checked(scenario, dwell, options)
     tables = dict(plan_tables(result))
@@ -98,6 +100,8 @@ def solve_run(
     tables["rules"] = rules_table(scenario, planned)
     tables["dwell_used"] = dwell_used_table(dwell, result)
     tables["dwell_ruled_out"] = ruled_out_table(dwell, planned)
+    rows = dwell[dwell["product"].isin(planned)] if "product" in dwell.columns else dwell
+    tables["assumptions"] = assumptions_table(assumptions(scenario, rows))
     return PlanRun(
         path,
         file_sha256(path),

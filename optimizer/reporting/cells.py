@@ -8,9 +8,18 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from optimizer.planning.rounding import (
+    MINUTES_DECIMALS,
+    SPEED_DECIMALS,
+    minutes_up,
+    safe_rounding,
+    speed_down,
+)
+
 __all__ = [
     "COLUMN_LABELS",
     "column_decimals",
+    "display_decimals",
     "exact_text",
     "format_cell",
     "is_missing",
@@ -71,7 +80,19 @@ def column_decimals(values: pd.Series) -> int:
     return 4
 
 
-def format_cell(value: Any, decimals: int = 2) -> str:
+def display_decimals(column: str, values: pd.Series) -> int:
+    """Decimals to show for a column: the safe-rounding resolution for dwell
+    minutes and belt speeds (:mod:`optimizer.planning.rounding`, as on the
+    floor sheet), else :func:`column_decimals`."""
+    direction = safe_rounding(str(column))
+    if direction == "up":
+        return MINUTES_DECIMALS
+    if direction == "down":
+        return SPEED_DECIMALS
+    return column_decimals(values)
+
+
+def format_cell(value: Any, decimals: int = 2, rounding: str | None = None) -> str:
     """Readable text for one table cell.
 
     Parameters
@@ -80,6 +101,10 @@ def format_cell(value: Any, decimals: int = 2) -> str:
         Cell value.
     decimals : int
         Decimals for floats.
+    rounding : {"up", "down", None}
+        Safe-side rounding of a float (:func:`optimizer.planning.rounding.safe_rounding`
+        of its column): ``"up"`` for minutes a product must stay, ``"down"``
+        for belt speeds; None rounds to nearest.
 
     Returns
     -------
@@ -97,6 +122,10 @@ def format_cell(value: Any, decimals: int = 2) -> str:
         number = float(value)
         if math.isinf(number):
             return "∞" if number > 0 else "−∞"
+        if rounding == "up":
+            number = minutes_up(number, decimals)
+        elif rounding == "down":
+            number = speed_down(number, decimals)
         return f"{number:,.{decimals}f}"
     return str(value)
 

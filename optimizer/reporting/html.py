@@ -39,9 +39,10 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from optimizer.dwell.histories import CurveSet
+from optimizer.planning.rounding import safe_rounding
 from optimizer.reporting.cells import (
     COLUMN_LABELS,
-    column_decimals,
+    display_decimals,
     exact_text,
     format_cell,
     is_missing,
@@ -49,9 +50,11 @@ from optimizer.reporting.cells import (
 )
 
 __all__ = [
+    "ASSUMPTION_LABELS",
     "HtmlReport",
     "RunInfo",
     "TimelineBar",
+    "assumption_cautions",
     "figure_png",
     "plan_report",
     "shift_timelines",
@@ -653,7 +656,7 @@ class HtmlReport:
             for c in frame.columns
         }
         decimals = {
-            c: column_decimals(frame[c])
+            c: display_decimals(c, frame[c])
             for c in frame.columns
             if numeric[c] and pd.api.types.is_float_dtype(frame[c])
         }
@@ -671,7 +674,7 @@ class HtmlReport:
                 if c in as_percent and is_number(value) and not is_missing(value):
                     shown = f"{100 * float(value):.0f} %"
                 else:
-                    shown = format_cell(value, decimals.get(c, 2))
+                    shown = format_cell(value, decimals.get(c, 2), safe_rounding(str(c)))
                 is_num = is_number(value) and not is_missing(value)
                 cls = ' class="num"' if is_num or numeric[c] else ""
                 cells.append(
@@ -974,6 +977,39 @@ def utilisation_figure(utilisation: pd.DataFrame) -> Figure:
     return fig
 
 
+ASSUMPTION_LABELS = {
+    "direction": "if wrong, the dwell",
+    "applies_to": "applies to",
+    "field": "scenario field",
+}
+"""Column labels of the assumptions table."""
+
+
+def assumption_cautions(register: pd.DataFrame | None) -> list[str]:
+    """Caution-box lines naming what the register says could shorten a dwell most.
+
+    The products planned for the nominal piece (no largest-piece size) by
+    name, and the belt loadings whose h is an estimate, not a calibration.
+    """
+    if register is None or register.empty:
+        return []
+    out = []
+    named = register.loc[register["topic"] == "largest piece", "applies_to"].tolist()
+    if named:
+        out.append(
+            f"No largest-piece size was given for {', '.join(named)}: their dwells are for "
+            "the nominal piece, and larger pieces take longer to cook and chill."
+        )
+    loads = register.loc[register["topic"] == "loading factor", "applies_to"].tolist()
+    if loads:
+        out.append(
+            f"The loaded-belt heat-transfer coefficient of {', '.join(loads)} is estimated "
+            "from the belt coverage, not measured: calibrate it (h_factor) from probe logs "
+            "of the loaded belt before relying on the chill times."
+        )
+    return out
+
+
 def _kv_number(value: float | None, unit: str, decimals: int = 1) -> str:
     if value is None or not math.isfinite(value):
         return "–"
@@ -1002,8 +1038,10 @@ def plan_report(
         The exported tables by file stem: at least the planner's
         ``ovens``, ``tunnels``, ``totals``, ``utilisation``,
         ``shadow_prices``, ``slack`` and ``shortfalls``; ``rules``,
-        ``dwell_used`` and ``dwell_ruled_out`` when present. Every table shown in the report is one
-        of these (per-shift parts of ``ovens`` and ``tunnels``).
+        ``dwell_used``, ``dwell_ruled_out`` and ``assumptions`` (the
+        register, :func:`optimizer.dwell.assumptions.assumptions_table`)
+        when present. Every table shown in the report is one of these
+        (per-shift parts of ``ovens`` and ``tunnels``).
     info : RunInfo
         Scenario file, hash, version, time.
     curves : sequence of (product, CurveSet, caption)
@@ -1027,7 +1065,8 @@ def plan_report(
         f"Shift plan — {info.plant}",
         f"Scenario {info.scenario_path} · {len(result.shifts)} shift(s) · made {info.generated}",
     )
-    report.caution("Food safety", SAFETY_CAUTION)
+    register = tables.get("assumptions")
+    report.caution("Food safety", [*SAFETY_CAUTION, *assumption_cautions(register)])
 
     # -- summary -----------------------------------------------------------
     report.section("Summary")
@@ -1107,6 +1146,23 @@ def plan_report(
             caption=f"Shadow prices of machine time [{unit} per extra hour]",
             labels=COLUMN_LABELS,
             empty_text="not computed",
+        )
+
+    # -- assumptions -----------------------------------------------------------
+    if register is not None:
+        report.section("Assumptions")
+        report.paragraph(
+            "Every default, estimate and simplification behind the dwell times, with its "
+            "value, its source and the way the dwell goes if it is wrong; those that could "
+            "shorten a dwell come first. Giving the value in the scenario (the field named) "
+            "replaces the assumption."
+        )
+        report.table(
+            "assumptions",
+            register,
+            caption="Assumptions in force, most dangerous first",
+            labels=ASSUMPTION_LABELS,
+            empty_text="none: the scenario gives every value the dwell table uses",
         )
 
     # -- diagnosis -----------------------------------------------------------

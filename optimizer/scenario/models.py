@@ -472,8 +472,11 @@ class LoadingOption(_Model):
     h_factor: _plain_number(gt=0.0) | None = Field(
         None,
         description=(
-            "Factor on the surface coefficient h for this loading [-]; default: the "
-            "documented rule of thermal.convection for the coverage."
+            "Factor on the surface coefficient h for this loading [-], calibrated from "
+            "probe logs of the loaded belt (it also multiplies a zone's measured_h: give 1 "
+            "if that was measured on this loading); default: estimated from the coverage "
+            "as 1 - 0.5 x coverage (thermal.convection.coverage_loading_factor), an "
+            "assumption listed in every report."
         ),
     )
 
