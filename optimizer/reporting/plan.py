@@ -58,8 +58,15 @@ def _run_info(run: PlanRun, argv_text: str) -> RunInfo:
     )
 
 
-def write_plan_outputs(run: PlanRun, target: Path, argv_text: str) -> list[Path]:
-    """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report."""
+def write_plan_outputs(
+    run: PlanRun, target: Path, argv_text: str, named_as: Path | None = None
+) -> list[Path]:
+    """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report.
+
+    ``named_as``: the folder the files will be in once a staging ``target``
+    is swapped in (:func:`optimizer.reporting.outset.output_set`); plan.json
+    lists them there.
+    """
     protect = [run.path]
     written = export.write_tables(target, run.tables, workbook="plan.xlsx", protect=protect)
     written.append(export.write_csv(target / "dwell.csv", run.dwell, protect=protect))
@@ -73,6 +80,10 @@ def write_plan_outputs(run: PlanRun, target: Path, argv_text: str) -> list[Path]
     )
     written.append(export.atomic_write_text(target / "report.html", html_text, protect=protect))
     written.append(
-        export.write_json(target / "plan.json", plan_json(run, written), protect=protect)
+        export.write_json(
+            target / "plan.json",
+            plan_json(run, [(named_as or target) / p.name for p in written]),
+            protect=protect,
+        )
     )
     return written
