@@ -116,3 +116,22 @@ def test_report_tables_never_show_a_dwell_below_or_a_speed_above_the_exact_value
         shown = [float(c.strip().replace(",", "")) for c in line.strip("│ ").split("│")]
         assert shown[0] >= row[0] and shown[1] >= row[1]
         assert shown[2] <= row[2] and shown[3] <= row[3]
+
+
+def test_demo_plan_trays_per_batch_never_exceed_the_oven_capacity():
+    # reports/sample is the demo plan as it is now (tests/test_sample_report.py):
+    # the trays shown for each batch load, summed over its products, fit the oven.
+    import re
+    from pathlib import Path
+
+    import pandas as pd
+    import yaml
+
+    root = Path(__file__).resolve().parents[1]
+    demo = yaml.safe_load((root / "configs" / "demo.yaml").read_text(encoding="utf-8"))
+    trays = {o["name"]: int(o["trays"]) for o in demo["ovens"]}
+    ovens = pd.read_csv(root / "reports" / "sample" / "ovens.csv")
+    assert len(ovens) > 0
+    for row in ovens.itertuples(index=False):
+        shown = [int(n) for n in re.findall(r" x(\d+)", row.load)]
+        assert shown and sum(shown) <= trays[row.oven], row.load

@@ -116,7 +116,7 @@ def margin_text(scenario: Scenario) -> str:
         )
     if m.time_fraction:
         parts.append(f"every cook and chill time +{100 * m.time_fraction:g} %")
-    return "calculated with " + "; ".join(parts) if parts else "none"
+    return "calculated with " + ("; ".join(parts) if parts else "no safety margin")
 
 
 _SHAPE_CORRELATIONS = {

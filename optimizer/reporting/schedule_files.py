@@ -38,6 +38,7 @@ from typing import Any
 
 import pandas as pd
 
+from optimizer.planning import rounding
 from optimizer.planning.schedule import Schedule, ShiftSchedule, TunnelTimeline, schedule_table
 from optimizer.reporting.export import table_records
 from optimizer.reporting.html import SAFETY_CAUTION, TimelineBar
@@ -55,19 +56,19 @@ __all__ = [
     "start_minute",
 ]
 
-BELT_SPEED_STEP = 0.01
+BELT_SPEED_STEP = 10.0**-rounding.SPEED_DECIMALS
 """Resolution of belt speeds on the floor sheet [m/min] (rounded down to it)."""
 
 UNPLACED_COLUMNS = ("shift", "machine", "load", "kg", "rule", "detail")
 """Columns of the ``unplaced`` table."""
 
-# Relative slack for values that are a whole number but for float noise
-# (e.g. 12.000000000001 min must not print as 13).
-_NOISE = 1e-9
-
 
 def minutes_up(minutes: float) -> int:
     """Minutes rounded up to the whole minute, for cook and chill times [min].
+
+    :func:`optimizer.planning.rounding.minutes_up` at whole minutes, the one
+    rule the report, the terminal and this sheet share: strict, so the shown
+    minute is never below the exact one (12.000000000001 min shows as 13).
 
     Parameters
     ----------
@@ -77,29 +78,32 @@ def minutes_up(minutes: float) -> int:
     Returns
     -------
     int
-        The smallest whole number of minutes not below ``minutes`` (float
-        noise of a few parts in 10⁹ aside).
+        The smallest whole number of minutes not below ``minutes``.
     """
-    return math.ceil(minutes * (1.0 - _NOISE) - _NOISE)
+    return int(rounding.minutes_up(minutes, 0))
 
 
 def belt_speed_down(speed: float, step: float = BELT_SPEED_STEP) -> float:
     """Belt speed rounded down to ``step``, never faster than planned [m/min].
+
+    :func:`optimizer.planning.rounding.speed_down`, strict: never above ``speed``.
 
     Parameters
     ----------
     speed : float
         Exact belt speed [m/min], positive.
     step : float
-        Resolution [m/min].
+        Resolution [m/min], a power of ten (0.01, 0.1, 1).
 
     Returns
     -------
     float
-        The largest multiple of ``step`` not above ``speed`` (float noise aside).
+        The largest multiple of ``step`` not above ``speed``.
     """
-    steps = math.floor(speed / step * (1.0 + _NOISE) + _NOISE)
-    return round(steps * step, 10)
+    decimals = round(-math.log10(step))
+    if not math.isclose(10.0**-decimals, step):
+        raise ValueError(f"step: must be a power of ten such as 0.01, got {step!r}")
+    return rounding.speed_down(speed, decimals)
 
 
 def start_minute(minutes: float) -> int:
@@ -499,6 +503,15 @@ def floor_sheet_html(
         "minute; cook and chill minutes are rounded up and belt speeds down, so the "
         "sheet never asks for less than the plan."
     )
+    margins = (
+        sorted(set(rules["margin"].astype(str)))
+        if rules is not None and "margin" in rules.columns
+        else []
+    )
+    if margins:
+        rounding += (
+            f" Targets are shown as the rules state them; the minutes were {'; '.join(margins)}."
+        )
     pages = []
     for sh in schedule.shifts:
         ovens = list(dict.fromkeys(b.oven for b in sh.batches))
