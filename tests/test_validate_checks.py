@@ -16,22 +16,9 @@ from pathlib import Path
 import pytest
 import yaml
 
-from optimizer.cli import main
+from tests.test_bad_input_files import DEMO_TEXT, ROOT, demo_with, run
 
-ROOT = Path(__file__).resolve().parents[1]
-DEMO_TEXT = (ROOT / "configs" / "demo.yaml").read_text(encoding="utf-8")
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
-
-
-def run(capsys, *argv: object) -> tuple[int, str, str]:
-    code = main([str(a) for a in argv])
-    captured = capsys.readouterr()
-    return code, captured.out, captured.err
-
-
-def demo_with(old: str, new: str) -> str:
-    assert old in DEMO_TEXT, old
-    return DEMO_TEXT.replace(old, new, 1)
 
 
 def demo_data() -> dict:
