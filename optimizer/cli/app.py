@@ -159,18 +159,21 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 @contextmanager
-def _validity_notes(counts: dict[str, int], note: Callable[[str], None]) -> Iterator[None]:
+def _validity_notes(
+    counts: dict[str, int], note: Callable[[str], None] | None = None
+) -> Iterator[None]:
     """Collect the physics' out-of-range warnings as one note per kind.
 
     A correlation used outside its validity range warns once per case with
     the value; a person needs the kind and how often, not a line per cell.
-    A dwell-cache entry refused or corrected is told at once, ``note(line)``
-    (even with ``--quiet``). Other warnings are shown as usual.
+    A dwell-cache entry refused or corrected is told at once as ``note(line)``
+    when ``note`` is given (even with ``--quiet``). Other warnings are shown
+    as usual.
     """
     shown = warnings.showwarning
 
     def show(message, category, filename, lineno, file=None, line=None):
-        if issubclass(category, CacheWarning):
+        if note is not None and issubclass(category, CacheWarning):
             note(f"note: {message}")
         elif issubclass(category, ValidityWarning):
             text = re.sub(r" = [-+0-9.eE]+", "", str(message))
