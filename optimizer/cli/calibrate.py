@@ -11,8 +11,7 @@ import pandas as pd
 from optimizer.cli.common import EXIT_OK, BadInput, load, out_dir, prepare_out, say_written
 from optimizer.cli.options import Formatter, add_common, add_scenario_options
 from optimizer.cli.probe_options import (
-    add_log_options,
-    add_target_options,
+    add_run_arguments,
     log_from_args,
     log_notes,
     minutes_pair,
@@ -59,19 +58,18 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     p = subparsers.add_parser(
         "calibrate",
         help="fit h to a trial run's probe log; write it as a scenario overlay",
-        description="Fit the surface heat-transfer coefficient h (radiation included) of an air "
-        "setting to a logged trial run by least squares on the core probes, with 95 % "
-        "intervals (Jacobian, and a bootstrap over probes), and write it as a scenario "
-        "overlay with its provenance. Optionally also fit a conductivity factor and the "
-        "probes' offset from the centre. For a tunnel setting with several zones, fit each "
-        "zone's part of the log (--window) to its --zone.",
+        description=(
+            "Fit the surface heat-transfer coefficient h (radiation included) of an air setting\n"
+            "to a logged trial run by least squares on the core probes, with 95 % intervals\n"
+            "(Jacobian, and a bootstrap over probes), and write it as a scenario overlay with\n"
+            "its provenance. Optionally also fit a conductivity factor and the probes' offset\n"
+            "from the centre. For a tunnel setting with several zones, fit each zone's part of\n"
+            "the log (--window) to its --zone."
+        ),
         epilog=EPILOG,
         formatter_class=Formatter,
     )
-    p.add_argument("scenario", metavar="SCENARIO", help="the plant's scenario file")
-    p.add_argument("log", metavar="LOG", help="the logger file (CSV)")
-    add_target_options(p)
-    add_log_options(p)
+    add_run_arguments(p)
     g = p.add_argument_group("fit")
     g.add_argument(
         "--fit-conductivity", action="store_true", help="also fit a factor on the conductivity"

@@ -13,6 +13,7 @@ from optimizer.scenario.models import Product, Scenario
 
 __all__ = [
     "add_log_options",
+    "add_run_arguments",
     "add_target_options",
     "log_from_args",
     "minutes_pair",
@@ -54,6 +55,14 @@ def add_log_options(parser: argparse.ArgumentParser) -> None:
     g.add_argument(
         "--date-order", choices=("ymd", "dmy", "mdy"), help="order of dates the file leaves open"
     )
+
+
+def add_run_arguments(parser: argparse.ArgumentParser) -> None:
+    """``SCENARIO LOG`` and the options naming the run's product, air setting and channels."""
+    parser.add_argument("scenario", metavar="SCENARIO", help="the plant's scenario file")
+    parser.add_argument("log", metavar="LOG", help="the logger file (CSV)")
+    add_target_options(parser)
+    add_log_options(parser)
 
 
 def add_target_options(parser: argparse.ArgumentParser) -> None:

@@ -10,8 +10,7 @@ import pandas as pd
 from optimizer.cli.common import EXIT_OK, BadInput, load, out_dir, prepare_out, say_written
 from optimizer.cli.options import Formatter, add_common, add_scenario_options
 from optimizer.cli.probe_options import (
-    add_log_options,
-    add_target_options,
+    add_run_arguments,
     log_from_args,
     log_notes,
     minutes_pair,
@@ -50,16 +49,17 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
     p = subparsers.add_parser(
         "verify",
         help="check a logged run against the product's rule, probe by probe",
-        description="Check every core probe of a logged run against the product's cook rule "
-        "(target and hold, lethality, time-temperature table) or its chill or freeze rule "
-        "(cooling windows, exit limit): pass or fail with the margin and the moment each "
-        "limit was met; the worst probe governs. The model's trace for the same run (the "
-        "scenario's h for the air setting, the logged air) is put beside each probe.",
+        description=(
+            "Check every core probe of a logged run against the product's cook rule (target and\n"
+            "hold, lethality, time-temperature table) or its chill or freeze rule (cooling\n"
+            "windows, exit limit): pass or fail with the margin and the moment each limit was\n"
+            "met; the worst probe governs. The model's trace for the same run (the scenario's h\n"
+            "for the air setting, the logged air) is put beside each probe."
+        ),
         epilog=EPILOG,
         formatter_class=Formatter,
     )
-    p.add_argument("scenario", metavar="SCENARIO", help="the plant's scenario file")
-    p.add_argument("log", metavar="LOG", help="the logger file (CSV)")
+    add_run_arguments(p)
     p.add_argument(
         "--stage",
         required=True,
@@ -73,8 +73,6 @@ def add_parser(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParse
         help="check only this part of the log [min from its first reading], e.g. the chill "
         "after the oven",
     )
-    add_target_options(p)
-    add_log_options(p)
     add_scenario_options(p)
     add_common(p)
     p.set_defaults(func=cmd_verify)
