@@ -103,8 +103,9 @@ def one_line(
     prods = tuple(
         ProductData(name, kgpt, 10.0, **kw) for name, (kgpt, _c, _v, kw) in products.items()
     ) + tuple(ProductData(name, 10.0, 10.0) for name in extra_products)
+    # chill_min is the residence the 20-m belt gives at the fastest speed v
     rows = [
-        dwell_row(name, "oven-1", "hot", "tunnel-1", "cold", "full", cook, v)
+        dwell_row(name, "oven-1", "hot", "tunnel-1", "cold", "full", cook, v, chill_min=20.0 / v)
         for name, (_k, cook, v, _kw) in products.items()
     ] + (extra_rows or [])
     shifts = tuple(ShiftData(f"s{i + 1}", shift_minutes) for i in range(n_shifts))

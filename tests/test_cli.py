@@ -549,8 +549,12 @@ def test_compare_two_scenarios(tmp_path, cache, capsys, demo_plan, plant):
     total = table.set_index("figure").loc["total kg"]
     assert float(total["plant"]) == pytest.approx(result["scenarios"][0]["total_kg"])
     assert float(total["longer-shifts"]) == pytest.approx(result["scenarios"][1]["total_kg"])
-    # longer shifts never make less
-    assert float(total["longer-shifts"]) >= float(total["plant"]) * (1 - 1e-6)
+    # longer shifts never lower the bound (the bucketed plan); the timed schedule is a
+    # heuristic and may place less with longer shifts, so only the bound is checked
+    bound = table.set_index("figure").loc["bound kg (bucketed plan)"]
+    assert float(bound["plant"]) == pytest.approx(result["scenarios"][0]["bucket_kg"])
+    assert float(bound["longer-shifts"]) >= float(bound["plant"]) * (1 - 1e-6)
+    assert float(total["plant"]) <= float(bound["plant"]) * (1 + 1e-6)
     page = read_page(out / "compare.html")
     assert_report_table_equals_csv(page, "compare", out / "compare.csv")
 

@@ -382,14 +382,14 @@ def test_setting_pruning_keeps_heat_out_for_least_energy():
 def test_setting_pruning_leaves_the_optimum_unchanged():
     # Solve with and without the pruning: the same best kg (most kg objective).
     from optimizer.planning import loads
-    from optimizer.planning.solve import plan
+    from optimizer.planning.solve import plan_buckets
 
     inp = _two_setting_line(1.2)
-    pruned = plan(inp, SolveOptions(shadow_prices=False))
+    pruned = plan_buckets(inp, SolveOptions(shadow_prices=False))
     original = loads._without_dominated_settings
     try:
         loads._without_dominated_settings = lambda routes, *, energy: routes
-        whole = plan(inp, SolveOptions(shadow_prices=False))
+        whole = plan_buckets(inp, SolveOptions(shadow_prices=False))
     finally:
         loads._without_dominated_settings = original
     assert pruned.objective_value == pytest.approx(whole.objective_value, rel=1e-9)

@@ -21,7 +21,7 @@ from optimizer.planning.inputs import Objective, OrderData, SolveOptions
 from optimizer.planning.loads import candidates
 from optimizer.planning.model import build_model, demand_groups, to_matrices
 from optimizer.planning.results import SolveStatus
-from optimizer.planning.solve import plan
+from optimizer.planning.solve import plan_buckets
 from tests._planner_cases import dwell_row, one_line
 
 OPT = SolveOptions(shadow_prices=False)
@@ -30,7 +30,7 @@ OPT = SolveOptions(shadow_prices=False)
 def test_oven_bound_single_product():
     # Cycle 50 + 10 = 60 min; batches must be out by 480 - 20 (residence) = 460 min
     # -> 7 batches x 10 trays x 10 kg = 700 kg (an 8th would unload at 480).
-    r = plan(one_line(), OPT)
+    r = plan_buckets(one_line(), OPT)
     assert r.status is SolveStatus.OPTIMAL
     assert r.objective_value == pytest.approx(700.0)
     (b,) = r.batches
@@ -41,7 +41,7 @@ def test_tunnel_bound_single_product():
     # Belt 0.1 m/min x 1 m x 10 kg/m2 = 1 kg/min, residence 20 m / 0.1 = 200 min:
     # feed from 60 (fill) to 480 - 200 = 280 min -> 220 kg; the oven would give
     # 4 batches (out by 280 min) = 400 kg.
-    r = plan(one_line(products={"A": (10.0, 50.0, 0.1, {})}), OPT)
+    r = plan_buckets(one_line(products={"A": (10.0, 50.0, 0.1, {})}), OPT)
     assert r.objective_value == pytest.approx(220.0)
     (run,) = r.runs
     assert run.belt_speed_m_per_min == pytest.approx(0.1)
@@ -49,7 +49,7 @@ def test_tunnel_bound_single_product():
 
 
 def test_two_shifts_add_up():
-    r = plan(one_line(n_shifts=2), OPT)
+    r = plan_buckets(one_line(n_shifts=2), OPT)
     assert r.objective_value == pytest.approx(1400.0)
 
 
@@ -61,8 +61,8 @@ def test_mixed_batches_fill_capped_orders():
     prods = {"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 50.0, 1.0, {})}
     orders = [OrderData("A", max_kg=350.0), OrderData("B", max_kg=350.0)]
     inp = one_line(products=prods, orders=orders)
-    single = plan(inp, SolveOptions(max_mix_products=1, shadow_prices=False))
-    mixed = plan(inp, OPT)
+    single = plan_buckets(inp, SolveOptions(max_mix_products=1, shadow_prices=False))
+    mixed = plan_buckets(inp, OPT)
     assert single.objective_value == pytest.approx(650.0)
     assert mixed.objective_value == pytest.approx(700.0)
     assert any(len(b.contents) == 2 for b in mixed.batches)
@@ -80,13 +80,13 @@ def test_setting_changeover_costs_a_batch():
         extra_rows=rows,
         extra_products=("B",),
     )
-    r = plan(inp, OPT)
+    r = plan_buckets(inp, OPT)
     assert r.objective_value == pytest.approx(600.0)
     oven_use = next(u for u in r.machine_use if u.kind == "oven")
     assert oven_use.changeover_min == pytest.approx(60.0)
     # Without the B minimum only 'hot' runs: 700 kg, no changeover.
     inp2 = _replace_orders(inp, [OrderData("A", min_kg=100.0), OrderData("B")])
-    assert plan(inp2, OPT).objective_value == pytest.approx(700.0)
+    assert plan_buckets(inp2, OPT).objective_value == pytest.approx(700.0)
 
 
 def test_tunnel_changeover_between_products():
@@ -95,7 +95,7 @@ def test_tunnel_changeover_between_products():
     # minutes -> 190 kg.
     prods = {"A": (10.0, 50.0, 0.1, {}), "B": (10.0, 50.0, 0.1, {})}
     orders = [OrderData("A", min_kg=80.0), OrderData("B", min_kg=80.0)]
-    r = plan(one_line(products=prods, orders=orders, tunnel_changeover=30.0), OPT)
+    r = plan_buckets(one_line(products=prods, orders=orders, tunnel_changeover=30.0), OPT)
     assert r.objective_value == pytest.approx(190.0)
 
 
@@ -106,7 +106,7 @@ def test_most_value():
     prods = {"A": (10.0, 50.0, 1.0, {"value_per_kg": 1.0}), "B": (10.0, 110.0, 1.0, {})}
     inp = one_line(products=prods, objective=Objective.MOST_VALUE)
     inp = _set_value(inp, "B", 3.0)
-    r = plan(inp, OPT)
+    r = plan_buckets(inp, OPT)
     assert r.objective_value == pytest.approx(1000.0)
     kg = {p: sum(run.kg for run in r.runs if run.product == p) for p in ("A", "B")}
     assert kg == pytest.approx({"A": 100.0, "B": 300.0})
@@ -128,7 +128,7 @@ def test_least_energy_for_fixed_output():
         fixed_output_kg=300.0,
         extra_products=("B",),
     )
-    r = plan(inp, OPT)
+    r = plan_buckets(inp, OPT)
     assert r.objective_value == pytest.approx(135_000.0, rel=1e-6)
     assert r.total_kg == pytest.approx(300.0)
 
@@ -136,7 +136,7 @@ def test_least_energy_for_fixed_output():
 def test_least_energy_meets_order_minimums_when_no_fixed_output():
     # Mins only: 150 kg of A at 550 kJ/kg = 82 500 kJ.
     inp = one_line(orders=[OrderData("A", min_kg=150.0)], objective=Objective.LEAST_ENERGY)
-    r = plan(inp, OPT)
+    r = plan_buckets(inp, OPT)
     assert r.objective_value == pytest.approx(82_500.0, rel=1e-6)
 
 
@@ -149,7 +149,7 @@ def test_soonest_orders_by_weight():
         OrderData("B", min_kg=700.0, due_shift="s3", weight=2.0),
     ]
     inp = one_line(products=prods, orders=orders, n_shifts=3, objective=Objective.SOONEST)
-    r = plan(inp, SolveOptions(shadow_prices=False, max_mix_products=1))
+    r = plan_buckets(inp, SolveOptions(shadow_prices=False, max_mix_products=1))
     assert r.objective_value == pytest.approx(4.0)
     s1 = {run.product for run in r.runs if run.shift == "s1"}
     assert s1 == {"B"}
@@ -161,7 +161,7 @@ def test_due_shift_forces_early_production():
     prods = {"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 50.0, 1.0, {"value_per_kg": 2.0})}
     orders = [OrderData("A", min_kg=600.0, due_shift="s1"), OrderData("B")]
     inp = one_line(products=prods, orders=orders, n_shifts=2, objective=Objective.MOST_VALUE)
-    r = plan(inp, SolveOptions(shadow_prices=False, max_mix_products=1))
+    r = plan_buckets(inp, SolveOptions(shadow_prices=False, max_mix_products=1))
     a_s1 = sum(run.kg for run in r.runs if run.product == "A" and run.shift == "s1")
     assert a_s1 >= 600.0 - 1e-6
     # Value: 600 (A) + 100 (B rest of s1, one batch) * 2 + 700 * 2 (s2) = 2200.
@@ -170,7 +170,7 @@ def test_due_shift_forces_early_production():
 
 def test_hot_hold_limits_batch_size():
     # 10 kg/min belt, hot hold 5 min -> 50 kg per batch -> 5 trays; 7 batches = 350 kg.
-    r = plan(one_line(products={"A": (10.0, 50.0, 1.0, {"hot_hold_min": 5.0})}), OPT)
+    r = plan_buckets(one_line(products={"A": (10.0, 50.0, 1.0, {"hot_hold_min": 5.0})}), OPT)
     assert r.objective_value == pytest.approx(350.0)
     assert all(c.trays == 5 for b in r.batches for c in b.contents)
 
@@ -182,7 +182,7 @@ def test_machine_stop_in_one_shift():
     shifts = (ShiftData("s1", 480.0), ShiftData("s2", 480.0, {"oven-1": 240.0}))
     inp = PlanInputs(base.ovens, base.tunnels, base.products, shifts, base.orders, base.dwell)
     # 7 + 4 batches = 1100 kg (s2's 240 oven minutes end well before the drain).
-    assert plan(inp, OPT).objective_value == pytest.approx(1100.0)
+    assert plan_buckets(inp, OPT).objective_value == pytest.approx(1100.0)
 
 
 def test_demand_groups_are_cumulative():
@@ -242,9 +242,9 @@ def test_transfer_shortens_the_hot_hold_window():
     from dataclasses import replace
 
     base = one_line(products={"A": (10.0, 50.0, 1.0, {"hot_hold_min": 15.0})})
-    assert plan(base, OPT).objective_value == pytest.approx(700.0)
+    assert plan_buckets(base, OPT).objective_value == pytest.approx(700.0)
     tunnel = replace(base.tunnels[0], transfer_min=10.0)
-    r = plan(_with(base, tunnels=(tunnel,)), OPT)
+    r = plan_buckets(_with(base, tunnels=(tunnel,)), OPT)
     assert r.objective_value == pytest.approx(350.0)
     assert all(c.trays == 5 for b in r.batches for c in b.contents)
 
@@ -255,8 +255,8 @@ def test_back_to_back_shifts_carry_the_drain_into_the_next_shift():
     # feeds from 60 to 480 (420 kg; its oven batches need not drain either); the last
     # shift still clears: 220 kg.
     base = one_line(products={"A": (10.0, 50.0, 0.1, {})}, n_shifts=2)
-    assert plan(base, OPT).objective_value == pytest.approx(440.0)
-    r = plan(_with(base, back_to_back=True), OPT)
+    assert plan_buckets(base, OPT).objective_value == pytest.approx(440.0)
+    r = plan_buckets(_with(base, back_to_back=True), OPT)
     assert r.objective_value == pytest.approx(640.0)
     assert sum(x.kg for x in r.runs if x.shift == "s1") == pytest.approx(420.0)
 
@@ -272,7 +272,7 @@ def test_a_tunnel_stop_inside_the_fill_costs_nothing():
         shift = ShiftData(
             "s1", 480.0, {"tunnel-1": 480.0 - stop}, stops=(StopData(stop, "tunnel-1"),)
         )
-        r = plan(_with(base, shifts=(shift,)), OPT)
+        r = plan_buckets(_with(base, shifts=(shift,)), OPT)
         assert r.objective_value == pytest.approx(kg), stop
 
 
@@ -288,10 +288,10 @@ def test_the_slowest_run_fed_sets_the_drain():
         capacity_kg=4000.0,
         orders=[OrderData("A"), OrderData("B", min_kg=50.0)],
     )
-    r = plan(inp, OPT)
+    r = plan_buckets(inp, OPT)
     kg = {p: sum(x.kg for x in r.runs if x.product == p) for p in ("A", "B")}
     assert kg == pytest.approx({"A": 1700.0, "B": 50.0})
     # Without B only A runs and drains 20 min: 400 belt minutes would take 4000 kg;
     # the oven's 2800 kg bind.
-    r2 = plan(_replace_orders(inp, [OrderData("A"), OrderData("B", max_kg=0.0)]), OPT)
+    r2 = plan_buckets(_replace_orders(inp, [OrderData("A"), OrderData("B", max_kg=0.0)]), OPT)
     assert r2.objective_value == pytest.approx(2800.0)

@@ -1,4 +1,4 @@
-"""plan(): statuses, shortfall diagnosis, shadow prices, determinism, tables.
+"""plan_buckets(): statuses, shortfall diagnosis, shadow prices, determinism, tables.
 
 Plants are invented (tests._planner_cases); expected values are worked out
 by hand in the comments.
@@ -23,7 +23,7 @@ from optimizer.planning.results import (
     tunnel_table,
     utilisation_table,
 )
-from optimizer.planning.solve import plan
+from optimizer.planning.solve import plan_buckets
 from tests._planner_cases import dwell_row, one_line
 
 SOLVERS = ["highs", "cbc"]
@@ -32,7 +32,7 @@ SOLVERS = ["highs", "cbc"]
 @pytest.mark.parametrize("solver", SOLVERS)
 def test_shadow_price_of_the_oven(solver):
     # Oven-bound: one more oven hour = one more 60-min batch of 100 kg -> +100 kg/h.
-    r = plan(one_line(), SolveOptions(solver=solver))
+    r = plan_buckets(one_line(), SolveOptions(solver=solver))
     price = {s.machine: s.per_hour for s in r.shadow_prices}
     assert price["oven-1"] == pytest.approx(100.0, rel=1e-4)
     assert price["tunnel-1"] == pytest.approx(0.0, abs=1e-6)
@@ -43,7 +43,7 @@ def test_shadow_price_of_the_oven(solver):
 @pytest.mark.parametrize("solver", SOLVERS)
 def test_shadow_price_of_the_tunnel(solver):
     # Tunnel-bound at 1 kg/min -> one more belt hour = +60 kg.
-    r = plan(one_line(products={"A": (10.0, 50.0, 0.1, {})}), SolveOptions(solver=solver))
+    r = plan_buckets(one_line(products={"A": (10.0, 50.0, 0.1, {})}), SolveOptions(solver=solver))
     price = {s.machine: s.per_hour for s in r.shadow_prices}
     assert price["tunnel-1"] == pytest.approx(60.0, rel=1e-4)
     assert price["oven-1"] == pytest.approx(0.0, abs=1e-6)
@@ -55,7 +55,7 @@ def test_shortfall_names_the_order():
     # an order of 720 kg due s1 is 20 kg short (20/720 = 2.8 % beats the 20 more oven
     # minutes an 8th batch needs, 4.2 % of the shift).
     inp = one_line(orders=[OrderData("A", min_kg=720.0, due_shift="s1")], n_shifts=2)
-    r = plan(inp)
+    r = plan_buckets(inp)
     assert r.status is SolveStatus.INFEASIBLE
     assert len(r.shortfalls) == 1
     s = r.shortfalls[0]
@@ -85,7 +85,7 @@ def test_shortfall_names_the_machine_minutes():
         extra_rows=rows,
         extra_products=("B",),
     )
-    r = plan(inp)
+    r = plan_buckets(inp)
     assert r.status is SolveStatus.INFEASIBLE
     (s,) = r.shortfalls
     assert (s.kind, s.subject, s.shift, s.unit) == ("machine", "oven-1", "s1", "min")
@@ -111,7 +111,7 @@ def test_shortfall_for_a_product_the_plant_cannot_make():
         extra_rows=[bad],
         extra_products=("B",),
     )
-    r = plan(inp)
+    r = plan_buckets(inp)
     assert r.status is SolveStatus.INFEASIBLE
     (s,) = r.shortfalls
     assert s.amount == pytest.approx(50.0)
@@ -121,7 +121,7 @@ def test_shortfall_for_a_product_the_plant_cannot_make():
 
 def test_infeasible_without_diagnosis_has_no_shortfalls():
     inp = one_line(orders=[OrderData("A", min_kg=900.0)])
-    r = plan(inp, SolveOptions(diagnose=False))
+    r = plan_buckets(inp, SolveOptions(diagnose=False))
     assert r.status is SolveStatus.INFEASIBLE and r.shortfalls == ()
 
 
@@ -140,12 +140,12 @@ def test_same_input_same_plan(solver):
     orders = [OrderData("A", max_kg=900.0), OrderData("B", min_kg=200.0), OrderData("C")]
     inp = one_line(products=prods, orders=orders, n_shifts=3, oven_changeover=20.0)
     opts = SolveOptions(solver=solver)
-    assert _plan_signature(plan(inp, opts)) == _plan_signature(plan(inp, opts))
+    assert _plan_signature(plan_buckets(inp, opts)) == _plan_signature(plan_buckets(inp, opts))
 
 
 def test_tables_and_summary():
     inp = one_line(n_shifts=2)
-    r = plan(inp)
+    r = plan_buckets(inp)
     # 7 batches per shift (out by 460 min), 420 of 480 oven minutes.
     ov = oven_table(r)
     assert list(ov["batches"]) == [7, 7]
@@ -168,7 +168,7 @@ def test_tables_and_summary():
 
 
 def test_plan_exposes_what_the_thermal_recheck_needs():
-    r = plan(one_line())
+    r = plan_buckets(one_line())
     (run,) = r.runs
     assert (run.product, run.oven, run.oven_setting, run.tunnel_setting, run.loading) == (
         "A",
@@ -192,12 +192,12 @@ def test_column_generation_finds_an_lp_improving_mix():
         "B": (5.0, 52.0, 5.0, {"value_per_kg": 3.0}),
     }
     inp = one_line(products=prods, capacity_kg=100.0, objective=Objective.MOST_VALUE)
-    cg = plan(inp, SolveOptions(column_generation=True, shadow_prices=False))
-    full = plan(inp, SolveOptions(column_generation=False, shadow_prices=False))
+    cg = plan_buckets(inp, SolveOptions(column_generation=True, shadow_prices=False))
+    full = plan_buckets(inp, SolveOptions(column_generation=False, shadow_prices=False))
     assert cg.column_generation_rounds >= 1 and cg.mixed_loads >= 1
     assert cg.mixed_loads < full.mixed_loads
     # Singles only: 7 B batches (434 min) = 1050; an A batch no longer fits.
-    single = plan(inp, SolveOptions(max_mix_products=1, shadow_prices=False))
+    single = plan_buckets(inp, SolveOptions(max_mix_products=1, shadow_prices=False))
     assert single.objective_value == pytest.approx(1050.0)
     assert full.objective_value == pytest.approx(1155.0)
     assert cg.objective_value == pytest.approx(1155.0)
@@ -213,9 +213,9 @@ def test_column_generation_stays_between_singles_and_the_full_pool():
     orders = [OrderData(p, max_kg=300.0 + 50 * i) for i, p in enumerate(prods)]
     inp = one_line(products=prods, orders=orders, n_shifts=2)
     opts = dict(shadow_prices=False, time_limit_s=4.0, gap_rel=1e-6)
-    single = plan(inp, SolveOptions(max_mix_products=1, **opts))
-    full = plan(inp, SolveOptions(column_generation=False, **opts))
-    cg = plan(inp, SolveOptions(column_generation=True, **opts))
+    single = plan_buckets(inp, SolveOptions(max_mix_products=1, **opts))
+    full = plan_buckets(inp, SolveOptions(column_generation=False, **opts))
+    cg = plan_buckets(inp, SolveOptions(column_generation=True, **opts))
     # The singles optimum is proven; both mixed runs start from it and may only improve.
     assert single.status is SolveStatus.OPTIMAL
     assert cg.objective_value >= single.objective_value - 1e-6
@@ -229,7 +229,7 @@ def test_time_limit_reports_a_typed_status():
     # and a plan is present exactly when the status says so.
     prods = {f"P{i}": (8.0 + i, 40.0 + 3 * i, 0.5 + 0.1 * i, {}) for i in range(5)}
     inp = one_line(products=prods, n_shifts=3, oven_changeover=15.0, tunnel_changeover=10.0)
-    r = plan(inp, SolveOptions(time_limit_s=2.0))
+    r = plan_buckets(inp, SolveOptions(time_limit_s=2.0))
     assert isinstance(r.status, SolveStatus)
     assert r.status.has_plan == bool(r.runs)
 
@@ -240,7 +240,7 @@ def test_no_orders_for_a_product_means_it_is_not_made():
     inp = PlanInputs(
         base.ovens, base.tunnels, base.products, base.shifts, (OrderData("A"),), base.dwell
     )
-    r = plan(inp)
+    r = plan_buckets(inp)
     assert {x.product for x in r.runs} == {"A"}
 
 
@@ -263,7 +263,7 @@ def test_no_orders_for_a_product_means_it_is_not_made():
 def test_pattern_formulation_on_hand_cases(make, expected):
     # Same hand cases as test_model (700 kg per 480-min shift, 1 kg/min belt with fill
     # and drain, a 60-min changeover costing a batch).
-    r = plan(make(), SolveOptions(formulation="patterns"))
+    r = plan_buckets(make(), SolveOptions(formulation="patterns"))
     assert r.status is SolveStatus.OPTIMAL
     assert r.objective_value == pytest.approx(expected)
     used = {(u.machine, u.shift): u.used_min for u in r.machine_use}
@@ -282,7 +282,7 @@ def test_pattern_formulation_is_honest_about_its_gap():
         products={"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 50.0, 1.0, {})},
         orders=[OrderData("A", max_kg=350.0), OrderData("B", max_kg=350.0)],
     )
-    r = plan(inp, SolveOptions(formulation="patterns"))
+    r = plan_buckets(inp, SolveOptions(formulation="patterns"))
     assert r.status is SolveStatus.FEASIBLE_WITH_GAP
     assert r.best_bound == pytest.approx(700.0, rel=1e-5)
     assert 650.0 - 1e-6 <= r.objective_value <= r.best_bound
@@ -463,7 +463,7 @@ def test_a_full_milp_stopped_before_its_root_lp_reports_the_lp_bound(monkeypatch
         return status, gap, bound, dt, msg
 
     monkeypatch.setattr(S, "_run", weak_bound)
-    r = plan(inp, opts)
+    r = plan_buckets(inp, opts)
     assert r.best_bound == pytest.approx(lp_value, rel=1e-9)
     # the gap is taken in the solver's objective, tie-break term included (< 1e-3)
     assert r.gap == pytest.approx((lp_value - r.objective_value) / r.objective_value, rel=1e-4)
@@ -509,3 +509,30 @@ def test_changes_between_solves_reach_highs():
                 v.upBound = 0
     assert solved(model) == pytest.approx(solved(fresh), rel=1e-9)
     assert solved(model) > with_mixed + 1.0  # and it cost plan
+
+
+def test_a_plan_short_of_hot_hold_is_diagnosed_as_hot_hold():
+    # A feeds at 10 kg/min; a 3-min hot hold lets the belt take 3 trays (30 kg) of a
+    # batch in time, so the 7 batches of the shift carry 210 kg of the 400 kg ordered.
+    # The elastic re-solve alone names a shortfall of the order (or of oven minutes);
+    # the cause is the hot hold: at 6 min, 7 batches of 60 kg = 420 kg fit, at 5 min
+    # 7 x 50 = 350 kg do not.
+    inp = one_line(
+        products={"A": (10.0, 50.0, 1.0, {"hot_hold_min": 3.0})},
+        orders=[OrderData("A", min_kg=400.0)],
+    )
+    r = plan_buckets(inp)
+    assert r.status is SolveStatus.INFEASIBLE
+    assert r.shortfalls and all(s.rule == "hot_hold" for s in r.shortfalls)
+    assert "hot-hold limit (hot_hold_max) of 6 min instead of 3 min" in r.shortfalls[0].message
+    for limit, fits in ((5.0, False), (6.0, True)):
+        p = dataclasses.replace(inp.products[0], hot_hold_min=limit)
+        again = plan_buckets(dataclasses.replace(inp, products=(p,)))
+        assert again.status.has_plan is fits, limit
+
+
+def test_a_plan_short_of_oven_minutes_is_not_blamed_on_the_hot_hold():
+    # No hot-hold limit: 720 kg due s1 against 700 that fit is a plain order shortfall.
+    inp = one_line(orders=[OrderData("A", min_kg=720.0, due_shift="s1")], n_shifts=2)
+    (s,) = plan_buckets(inp).shortfalls
+    assert s.rule == "order" and "hot hold" not in s.message

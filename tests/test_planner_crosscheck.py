@@ -7,8 +7,8 @@
   slowest run fed drains its residence (length / speed, a run's residence
   being that of its fastest route) before the shift ends, which the brute
   force tries as every possible slowest run; each route alone drains too;
-  and the oven's batches are out by the shift end less the quickest
-  residence.
+  and every batch is out by the shift end less the residence of its
+  products (the batches due by then fitting before it).
 * A second solver path: the model's matrices solved with
   scipy.optimize.milp (HiGHS inside scipy, a separate build).
 * HiGHS (in-process) against CBC on the same plans, every objective.
@@ -42,7 +42,7 @@ from optimizer.planning.inputs import (
 from optimizer.planning.loads import candidates
 from optimizer.planning.model import build_model, to_matrices
 from optimizer.planning.results import SolveStatus
-from optimizer.planning.solve import plan
+from optimizer.planning.solve import plan_buckets
 from tests._planner_cases import dwell_row, table
 
 GAP = 1e-5
@@ -104,19 +104,38 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
     run_res = {p: min(v for (q, _), v in residence.items() if q == p) for p, _ in keys}
     fill = min(oven.load_unload_min + cand.cook[(p, oven.name, os_)].cook_min for p, os_ in keys)
 
-    def shift_options(minutes: float):
+    def due_by(ld, length: float) -> float:
+        # a batch is out in time for each of its products to leave the belt by the end
+        return min(length - residence[(p, ld.setting)] for p in ld.products)
+
+    def fits(counts, minutes: float, length: float) -> bool:
+        used_loads = [(ld, c) for ld, c in zip(loads, counts, strict=True) if c]
+        settings = {ld.setting for ld, _ in used_loads}
+        used = sum(ld.cycle_min * c for ld, c in used_loads)
+        used += oven.changeover_min * max(0, len(settings) - 1)
+        if used > minutes + 1e-9:
+            return False
+        # the batches due by each batch's due fit before it
+        dues = {id(ld): due_by(ld, length) for ld, _ in used_loads}
+        return all(
+            sum(m.cycle_min * c for m, c in used_loads if dues[id(m)] <= dues[id(ld)] + 1e-9)
+            <= dues[id(ld)] + 1e-9
+            for ld, _ in used_loads
+        )
+
+    def shift_options(minutes: float, length: float):
         out = []
         max_n = [int(minutes // ld.cycle_min) for ld in loads]
         for counts in itertools.product(*[range(m + 1) for m in max_n]):
-            settings = {ld.setting for ld, c in zip(loads, counts, strict=True) if c}
-            used = sum(ld.cycle_min * c for ld, c in zip(loads, counts, strict=True))
-            used += oven.changeover_min * max(0, len(settings) - 1)
-            if used > minutes + 1e-9:
+            if not fits(counts, minutes, length):
                 continue
+            settings = {ld.setting for ld, c in zip(loads, counts, strict=True) if c}
             # A batch more at a setting already running never hurts (it may run
             # under-filled): keep only combinations where none fits.
             if any(
-                ld.setting in settings and used + ld.cycle_min <= minutes + 1e-9 for ld in loads
+                ld.setting in settings
+                and fits(tuple(c + (j == i) for j, c in enumerate(counts)), minutes, length)
+                for i, ld in enumerate(loads)
             ):
                 continue
             out.append(counts)
@@ -124,7 +143,8 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
 
     quickest = min(residence.values())
     per_shift = [
-        shift_options(min(s.available(oven.name), s.minutes - quickest)) for s in inp.shifts
+        shift_options(min(s.available(oven.name), s.minutes - quickest), s.minutes)
+        for s in inp.shifts
     ]
     # LP in x[key, shift] >= 0, maximise sum x.
     nv = len(keys) * len(shifts)
@@ -207,7 +227,7 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
 def test_milp_matches_brute_force(seed, max_mix):
     inp = random_plant(seed)
     best = brute_force_most_kg(inp, max_mix)
-    r = plan(
+    r = plan_buckets(
         inp,
         SolveOptions(max_mix_products=max_mix, shadow_prices=False, diagnose=False, gap_rel=GAP),
     )
@@ -235,7 +255,7 @@ def test_scipy_milp_agrees_on_the_exported_model(seed, objective):
         bounds=Bounds(mat.lb, mat.ub),
         options={"mip_rel_gap": GAP},
     )
-    r = plan(inp, SolveOptions(shadow_prices=False, diagnose=False, gap_rel=GAP))
+    r = plan_buckets(inp, SolveOptions(shadow_prices=False, diagnose=False, gap_rel=GAP))
     if res.status == 2:  # infeasible
         assert r.status is SolveStatus.INFEASIBLE
         return
@@ -262,8 +282,8 @@ def test_highs_and_cbc_agree(seed, objective):
         60.0 if objective is Objective.LEAST_ENERGY else None,
     )
     opts = dict(shadow_prices=False, diagnose=False, gap_rel=GAP)
-    h = plan(inp, SolveOptions(solver="highs", **opts))
-    c = plan(inp, SolveOptions(solver="cbc", **opts))
+    h = plan_buckets(inp, SolveOptions(solver="highs", **opts))
+    c = plan_buckets(inp, SolveOptions(solver="cbc", **opts))
     assert h.status is c.status
     if h.status.has_plan:
         assert h.objective_value == pytest.approx(c.objective_value, rel=2 * GAP, abs=2e-3)

@@ -192,10 +192,9 @@ def test_tunnel_length_throughput_rises_while_the_tunnel_limits_then_stays_flat(
         assert got == pytest.approx(batches * BATCH_KG, rel=1e-6)
     # kg per week is kg per shift times the study's shifts a week.
     assert list(table["kg_per_week"]) == pytest.approx([10 * k for k in kg])
-    # Utilisation: the tunnel feeds all it can while it limits (idle in the fill and
-    # while the last pieces drain), the oven once it does.
-    feeding = SHIFT_MIN - fill - chill_min
-    assert table["util:tunnel-a"].iloc[0] == pytest.approx(feeding / SHIFT_MIN, rel=0.01)
+    # Utilisation: the tunnel is full while it limits (feeding, then carrying its last
+    # pieces out; idle only in the fill), the oven once it does.
+    assert table["util:tunnel-a"].iloc[0] == pytest.approx(1.0 - fill / SHIFT_MIN, rel=0.01)
     assert table["util:tunnel-a"].iloc[-1] < 0.9
     assert (table["marginal_value"].iloc[:first_oven] > 0).all()
 
@@ -448,9 +447,9 @@ def test_added_oven_demand_growth_product_mix_and_shift_pattern(tmp_path):
     assert raw["ovens"][2]["trays"] == base["ovens"][0]["trays"]
     assert raw["tunnels"][0]["fed_by"][-2:] == ["rack-oven-1-copy-1", "rack-oven-1-copy-2"]
     orders = {o["product"]: o for o in raw["orders"]}
-    assert orders["chicken-fillet"]["min_kg"] == pytest.approx(600 * 1.5)
+    assert orders["chicken-fillet"]["min_kg"] == pytest.approx(100 * 1.5)
     assert orders["chicken-fillet"]["max_kg"] == pytest.approx(3000 * 1.5)
-    assert orders["pork-sausage"]["min_kg"] == pytest.approx(800 * 1.5 * 2)
+    assert orders["pork-sausage"]["min_kg"] == pytest.approx(400 * 1.5 * 2)
     assert orders["pork-sausage"]["max_kg"] == pytest.approx(2000 * 1.5 * 2)
     assert "min_kg" not in orders["veg-dumpling"]  # no minimum stays no minimum
     assert [s.get("stops") for s in raw["shifts"]] == [None, None, None]

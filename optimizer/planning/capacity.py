@@ -16,7 +16,7 @@ import pandas as pd
 
 from optimizer.planning.inputs import Objective, OrderData, PlanInputs, SolveOptions
 from optimizer.planning.results import PlanResult, plan_tables
-from optimizer.planning.solve import plan
+from optimizer.planning.solve import plan_buckets
 
 __all__ = [
     "CAPACITY_TOLERANCE",
@@ -164,7 +164,7 @@ def max_mix_capacity(
     """
     quick = dataclasses.replace(options, shadow_prices=False, diagnose=False)
     solves = 0
-    free = plan(_mix_inputs(inputs, shares, None), quick)
+    free = plan_buckets(_mix_inputs(inputs, shares, None), quick)
     solves += 1
     upper = free.total_kg if free.status.has_plan else 0.0
     low, high = 0.0, upper
@@ -175,22 +175,22 @@ def max_mix_capacity(
             if r.product in made:
                 made[r.product] += r.kg
         low = min(made[p] / share for p, share in shares.items()) * (1.0 - 1e-9)
-        if plan(_mix_inputs(inputs, shares, upper), quick).status.has_plan:
+        if plan_buckets(_mix_inputs(inputs, shares, upper), quick).status.has_plan:
             low = upper
         solves += 1
         while high - low > tolerance * high:
             mid = 0.5 * (low + high)
             solves += 1
-            if plan(_mix_inputs(inputs, shares, mid), quick).status.has_plan:
+            if plan_buckets(_mix_inputs(inputs, shares, mid), quick).status.has_plan:
                 low = mid
             else:
                 high = mid
-    final = plan(_mix_inputs(inputs, shares, low), options)
+    final = plan_buckets(_mix_inputs(inputs, shares, low), options)
     solves += 1
     limit = None
     if high > low or low == 0:
         probe = high if high > low else max(upper, 1.0)
-        limit = plan(_mix_inputs(inputs, shares, probe), options)
+        limit = plan_buckets(_mix_inputs(inputs, shares, probe), options)
         solves += 1
         if limit.status.has_plan:
             limit = None

@@ -473,6 +473,13 @@ class SolveOptions:
         Run the elastic re-solve that names shortfalls when nothing fits.
     msg : bool
         Let the solver print its log.
+    schedule : bool
+        Place the plan in time (:mod:`optimizer.planning.scheduler`) and
+        report the schedule's kg, objective and machine use
+        (:mod:`optimizer.planning.timed`).
+    schedule_rounds : int
+        Most cut-and-resolve rounds when the schedule cannot place the plan
+        (0: report the schedule of the first plan as it is) [-].
     """
 
     solver: str = "highs"
@@ -488,6 +495,8 @@ class SolveOptions:
     shadow_prices: bool = True
     diagnose: bool = True
     msg: bool = False
+    schedule: bool = True
+    schedule_rounds: int = 4
 
     def __post_init__(self) -> None:
         if self.solver not in ("highs", "cbc"):
@@ -504,6 +513,14 @@ class SolveOptions:
         if self.formulation not in ("compact", "patterns"):
             raise PlanInputError(
                 f"options.formulation: must be 'compact' or 'patterns', got {self.formulation!r}"
+            )
+        if (
+            isinstance(self.schedule_rounds, bool)
+            or not isinstance(self.schedule_rounds, int)
+            or self.schedule_rounds < 0
+        ):
+            raise PlanInputError(
+                f"options.schedule_rounds: must be an integer >= 0, got {self.schedule_rounds!r}"
             )
         if not isinstance(self.max_enumerated_loads, int) or self.max_enumerated_loads < 0:
             raise PlanInputError(

@@ -20,6 +20,9 @@ Constraints
 
 * oven time: ``sum cycle * n + changeover * (sum z - 1) <= minutes`` (the
   first setting of a shift is free); link ``sum cycle * n <= minutes * z``;
+  due (``oven_due``): for each latest unload ``u`` below the oven's minutes,
+  the batches whose product must be out by ``u`` to leave the belt by the
+  shift end fit before it, ``sum cycle * n <= u``;
 * tunnel time: ``sum x / rate + changeover * (sum y - 1) <= span``, and the
   same plus ``residence * y`` per run (see *Fill and drain*); link
   ``sum x / rate <= span * y`` per run;
@@ -67,6 +70,9 @@ import scipy.sparse as sp
 
 from optimizer.planning.inputs import Objective, PlanInputs, TunnelData
 from optimizer.planning.loads import BatchLoad, Candidates, ShiftPattern, TunnelRoute, make_pattern
+
+DUE_MERGE_MIN = 1.0
+"""Latest-unload rows of one oven and shift closer than this share a row [min]."""
 
 TIE_BREAK = 1e-3
 """Largest total weight of the tie-break term [objective units]."""
@@ -209,6 +215,11 @@ class TimeCaps:
         route key -> residence at the route's belt speed [min].
     cuts : dict
         (machine, shift) -> minutes taken off by schedule cuts [min].
+    unload_by : dict
+        (product, oven, oven setting, shift) -> latest unload end of a batch
+        holding the product, for it to be transferred and leave the belt by
+        the shift end on its best route [min] (from the start of the shift,
+        the stops of every machine taken off).
     """
 
     oven: dict[tuple[str, str], float]
@@ -217,6 +228,13 @@ class TimeCaps:
     drain: dict[str, bool]
     residence: dict[str, float]
     cuts: dict[tuple[str, str], float]
+    unload_by: dict[tuple[str, str, str, str], float] = field(default_factory=dict)
+
+    def load_due(self, load: BatchLoad, shift: str) -> float:
+        """Latest unload end of a batch of ``load`` in ``shift`` [min]: its tightest product."""
+        return min(
+            self.unload_by.get((p, load.oven, load.setting, shift), math.inf) for p in load.products
+        )
 
 
 def time_caps(
@@ -274,7 +292,16 @@ def time_caps(
             ]
             cap = min(s.available(o), max(ends)) if ends else s.available(o)
             oven_cap[(o, s.name)] = max(cap - cuts.get((o, s.name), 0.0), 0.0)
-    return TimeCaps(oven_cap, tunnel_cap, fill, drain, residence, cuts)
+    unload_by: dict[tuple[str, str, str, str], float] = {}
+    for s in inputs.shifts:
+        common = sum(x.minutes for x in s.stops if x.machine is None)
+        for r in cand.routes:
+            t = tunnels[r.tunnel]
+            end = s.window(t.name) - common - t.transfer_min
+            end -= residence[r.key] if drain[s.name] else 0.0
+            key = (*r.source, s.name)
+            unload_by[key] = max(unload_by.get(key, -math.inf), end)
+    return TimeCaps(oven_cap, tunnel_cap, fill, drain, residence, cuts, unload_by)
 
 
 @dataclass
@@ -397,7 +424,8 @@ class PlanModel:
         self.loads[load.key] = load
         oven = next(o for o in self.inputs.ovens if o.name == load.oven)
         for s in self.inputs.shifts:
-            cap = self.cap(oven.name, s.name) + self._extra_cap()
+            due = self.caps.load_due(load, s.name)
+            cap = min(self.cap(oven.name, s.name), due) + self._extra_cap()
             ub = math.floor(cap / load.cycle_min + 1e-9)
             if ub < 1:
                 continue
@@ -405,6 +433,9 @@ class PlanModel:
             self.n[(load.key, s.name)] = nv
             self.prob.objective.addterm(nv, self.tie_per_min * load.cycle_min)
             self.rows["oven_time"][(oven.name, s.name)].expr.addterm(nv, load.cycle_min)
+            for (o, s2, u), row in self.rows["oven_due"].items():
+                if o == oven.name and s2 == s.name and due <= u + 1e-9:
+                    row.expr.addterm(nv, load.cycle_min)
             link = self.rows["oven_link"].get((oven.name, load.setting, s.name))
             if link is not None:
                 link.expr.addterm(nv, load.cycle_min)
@@ -528,7 +559,9 @@ def build_model(
     xcap = m._extra_cap()
     obj = inputs.objective
     prods = {p.name: p for p in inputs.products}
-    for g in ("oven_time", "oven_link", "tunnel_time", "tunnel_link", "drain", "flow", "capacity"):
+    for g in ("oven_time", "oven_due", "oven_link", "tunnel_time", "tunnel_link", "drain"):
+        m.rows[g] = {}
+    for g in ("flow", "capacity"):
         m.rows[g] = {}
     for g in ("demand_min", "demand_max", "output", "done", "done_order", "pattern_choice"):
         m.rows[g] = {}
@@ -563,6 +596,31 @@ def build_model(
             )
             prob.addConstraint(row)
             m.rows["oven_time"][(o, s)] = row
+            # Batches whose product must leave the belt early must be out early: one
+            # row per distinct latest unload below the oven's cap.
+            dues = sorted(
+                {
+                    round(u, 6)
+                    for (_p, o2, _os, s2), u in caps.unload_by.items()
+                    if o2 == o and s2 == s and u < cap[(o, s)] - DUE_MERGE_MIN
+                }
+            )
+            kept: list[float] = []
+            for u in dues:
+                if kept and u - kept[-1] <= DUE_MERGE_MIN:
+                    kept[-1] = u  # rows within a minute: keep the later (weaker, valid) one
+                else:
+                    kept.append(u)
+            for u in kept:
+                extra = [(m.extra[(o, s)], -1.0)] if elastic else []
+                row = pulp.LpConstraint(
+                    pulp.LpAffineExpression(extra),
+                    pulp.LpConstraintLE,
+                    rhs=max(u, 0.0),
+                    name=f"oven_due_{len(m.rows['oven_due']):05d}",
+                )
+                prob.addConstraint(row)
+                m.rows["oven_due"][(o, s, u)] = row
     for (o, os_, s), zv in m.z.items():
         row = pulp.LpConstraint(
             pulp.LpAffineExpression([(zv, -(cap[(o, s)] + xcap))]),

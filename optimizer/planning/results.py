@@ -20,6 +20,7 @@ from enum import Enum
 import pandas as pd
 
 from optimizer.planning.inputs import Objective
+from optimizer.planning.schedule import Schedule
 
 CAUTION = (
     "Caution: dwell times and belt speeds are model estimates for the largest piece "
@@ -260,6 +261,10 @@ class Shortfall:
         ``"kg"`` or ``"min"``.
     message : str
         One line for the planner.
+    rule : str
+        The rule that binds, one of :data:`optimizer.planning.schedule.RULES`
+        (``hot_hold``, ``belt_speed``, ``residence``, ``shift_end``,
+        ``oven_minutes``, ``order``); empty when not known.
     """
 
     kind: str
@@ -268,6 +273,7 @@ class Shortfall:
     amount: float
     unit: str
     message: str
+    rule: str = ""
 
 
 @dataclass(frozen=True)
@@ -340,6 +346,22 @@ class PlanResult:
         Pricing rounds run (0 when the mixed loads were enumerated) [-].
     messages : tuple of str
         Notes (solver fallback, time limit, ...).
+    schedule : Schedule or None
+        The timed schedule of this plan (:mod:`optimizer.planning.scheduler`);
+        when present, ``objective_value``, ``total_kg``, ``batches``, ``runs``
+        and ``machine_use`` are the schedule's, and ``best_bound`` is the
+        bucketed MILP's bound (an upper bound, for maximising objectives).
+    bucket_value, bucket_kg : float or None
+        Objective [objective units] and kg [kg] of the bucketed MILP's plan
+        (machine minutes per shift, fill and drain counted; no cuts), the
+        bound the schedule is measured against; None without a schedule.
+    schedule_rounds : int
+        Cut-and-resolve rounds run to make the plan fit a schedule [-].
+    schedule_seconds : float
+        Wall time of scheduling and the re-solves of those rounds [s].
+    scheduled_plan : PlanResult or None
+        The bucketed plan (whole trays) the schedule was made from: what an
+        independent check of the schedule compares it with.
     """
 
     status: SolveStatus
@@ -363,6 +385,12 @@ class PlanResult:
     mixed_loads: int = 0
     column_generation_rounds: int = 0
     messages: tuple[str, ...] = ()
+    schedule: Schedule | None = None
+    bucket_value: float | None = None
+    bucket_kg: float | None = None
+    schedule_rounds: int = 0
+    schedule_seconds: float = 0.0
+    scheduled_plan: PlanResult | None = None
 
 
 def oven_table(result: PlanResult) -> pd.DataFrame:
@@ -476,8 +504,11 @@ def slack_table(result: PlanResult) -> pd.DataFrame:
 def shortfall_table(result: PlanResult) -> pd.DataFrame:
     """Shortfalls from the elastic re-solve, smallest first."""
     return pd.DataFrame(
-        [(s.kind, s.subject, s.shift, s.amount, s.unit, s.message) for s in result.shortfalls],
-        columns=["kind", "subject", "shift", "amount", "unit", "message"],
+        [
+            (s.kind, s.subject, s.shift, s.amount, s.unit, s.rule, s.message)
+            for s in result.shortfalls
+        ],
+        columns=["kind", "subject", "shift", "amount", "unit", "rule", "message"],
     )
 
 

@@ -6,6 +6,7 @@ notebook share (``optimizer.plan_scenario`` returns one).
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import pandas as pd
@@ -115,7 +116,10 @@ def solve_run(
 
 
 def plan_checked(
-    scenario: Scenario, dwell: pd.DataFrame, options: SolveOptions | None = None
+    scenario: Scenario,
+    dwell: pd.DataFrame,
+    options: SolveOptions | None = None,
+    solve: Callable[[PlanInputs, SolveOptions], PlanResult] = plan,
 ) -> tuple[pd.DataFrame, PlanInputs, PlanResult]:
     """Plan, then re-verify every dwell cell the plan uses against the physics.
 
@@ -123,7 +127,8 @@ def plan_checked(
     again unless this process computed them from the physics itself
     (:func:`optimizer.dwell.table.verify_rows`); when a cached value differs,
     the table is corrected (with a notice) and the plan made again, until
-    the plan uses only the physics' values.
+    the plan uses only the physics' values. ``solve``: the planner
+    (:func:`optimizer.planning.solve.plan`, or ``plan_buckets`` for studies).
 
     Returns
     -------
@@ -133,7 +138,7 @@ def plan_checked(
     quiet_solver_banner()
     while True:
         inputs = plan_inputs(scenario, dwell)
-        result = plan(inputs, options if options is not None else SolveOptions())
+        result = solve(inputs, options if options is not None else SolveOptions())
         routes = [
             (r.product, r.oven, r.oven_setting, r.tunnel, r.tunnel_setting, r.loading)
             for r in result.runs

@@ -68,6 +68,7 @@ from optimizer.planning.results import (
     SolveStatus,
     TunnelRun,
 )
+from optimizer.planning.timed import timed_plan
 
 MAX_PRICING_ROUNDS = 12
 """Most column-generation rounds [-]."""
@@ -433,12 +434,19 @@ def _extract(model: PlanModel):
             co = oven.changeover_min * max(0, nset - 1)
             used = sum(b.minutes for b in mine) + co
             use.append(MachineUse(oven.name, "oven", s, used, co, model.available(oven.name, s)))
+    run_res: dict[tuple[str, str, str], float] = {}
+    for r in model.routes.values():
+        run_res[r.run] = min(run_res.get(r.run, math.inf), model.caps.residence[r.key])
     for tun in inputs.tunnels:
         for s in shifts:
             mine = [r for r in runs if r.tunnel == tun.name and r.shift == s]
             nrun = len({(r.product, r.tunnel_setting) for r in mine})
             co = tun.changeover_min * max(0, nrun - 1)
-            used = sum(r.minutes for r in mine) + co
+            # the belt carries product while the slowest run fed drains
+            drain = max(
+                (run_res[(r.tunnel, r.product, r.tunnel_setting)] for r in mine), default=0.0
+            )
+            used = sum(r.minutes for r in mine) + co + (drain if model.caps.drain[s] else 0.0)
             use.append(MachineUse(tun.name, "tunnel", s, used, co, model.available(tun.name, s)))
     return tuple(batches), tuple(runs), tuple(use)
 
@@ -626,18 +634,115 @@ def _diagnose(
         shift = shifts[g.due]
         msg = f"order for {labels}: {amount:,.0f} kg short by {shift}"
         why = cand.excluded.get(g.product)
+        rule = "order"
         if why and not any(r.product == g.product for r in cand.routes):
             msg += f" (cannot be made on this plant: {'; '.join(why)})"
-        items.append((amount / g.cum_min_kg, Shortfall("order", labels, shift, amount, "kg", msg)))
+            rule = _excluded_rule(why)
+        items.append(
+            (amount / g.cum_min_kg, Shortfall("order", labels, shift, amount, "kg", msg, rule))
+        )
+    ovens = {o.name for o in inputs.ovens}
     for (mc, s), v in em.extra.items():
         amount = v.value() or 0.0
         if amount <= 1e-4:
             continue
         msg = f"{mc} needs {amount:,.0f} more minutes in {s}"
         ref = max(em.available(mc, s), 1.0)
-        items.append((amount / ref, Shortfall("machine", mc, s, amount, "min", msg)))
+        # an oven short of minutes; a belt that cannot take it before the shift ends
+        rule = "oven_minutes" if mc in ovens else "shift_end"
+        items.append((amount / ref, Shortfall("machine", mc, s, amount, "min", msg, rule)))
     items.sort(key=lambda t: (t[0], t[1].message))
-    return tuple(s for _, s in items), note
+    found = tuple(s for _, s in items)
+    if found:
+        found = _hot_hold_cause(inputs, options, found)
+    return found, note
+
+
+def _excluded_rule(reasons) -> str:
+    """The rule a product that cannot be made at all breaks, from the dwell table's reasons."""
+    text = " ".join(reasons)
+    if "belt" in text and ("minimum" in text or "maximum" in text):
+        return "belt_speed"
+    if "hot-hold" in text:
+        return "hot_hold"
+    return "residence" if "chill" in text or "tunnel" in text else "order"
+
+
+HOT_HOLD_CHECKS = 8
+"""Most plan solves spent finding the hot-hold limit that would make the orders fit [-]."""
+
+
+def _with_hot_hold(inputs: PlanInputs, limit: float) -> PlanInputs:
+    """``inputs`` with every finite hot-hold limit raised to at least ``limit`` [min]."""
+    prods = tuple(
+        dataclasses.replace(p, hot_hold_min=max(p.hot_hold_min, limit))
+        if math.isfinite(p.hot_hold_min)
+        else p
+        for p in inputs.products
+    )
+    tunnels = tuple(
+        dataclasses.replace(t, hot_hold_min=max(t.hot_hold_min, limit))
+        if math.isfinite(t.hot_hold_min)
+        else t
+        for t in inputs.tunnels
+    )
+    return dataclasses.replace(inputs, products=prods, tunnels=tunnels)
+
+
+def _hot_hold_cause(
+    inputs: PlanInputs, options: SolveOptions, found: tuple[Shortfall, ...]
+) -> tuple[Shortfall, ...]:
+    """Name hot hold as the binding rule when a longer hot-hold limit makes the orders fit.
+
+    The hot hold caps the trays of a batch (the belt must take them within
+    the limit less the transfer), so a plant short of oven minutes may in
+    truth be short of hot hold. The plan is solved with the limits raised
+    (doubling, then halving the interval, whole minutes, at most
+    :data:`HOT_HOLD_CHECKS` solves); when some limit fits, every shortfall
+    is marked ``hot_hold`` and says which limit would make it fit.
+    """
+    planned = {o.product for o in inputs.orders}
+    now = [p.hot_hold_min for p in inputs.products if p.name in planned]
+    now = [h for h in now if math.isfinite(h)]
+    if not now:
+        return found
+    quick = dataclasses.replace(
+        options,
+        diagnose=False,
+        shadow_prices=False,
+        schedule=False,
+        time_limit_s=DIAGNOSE_SHARE * options.time_limit_s / HOT_HOLD_CHECKS,
+    )
+
+    def fits(limit: float) -> bool:
+        return plan_buckets(_with_hot_hold(inputs, limit), quick).status.has_plan
+
+    lo, hi, checks = max(now), None, 0
+    step = max(lo, 1.0)
+    while hi is None and checks < HOT_HOLD_CHECKS // 2:
+        checks += 1
+        if fits(lo + step):
+            hi = lo + step
+        else:
+            lo, step = lo + step, 2.0 * step
+    if hi is None:
+        return found
+    while checks < HOT_HOLD_CHECKS and math.ceil(hi) - math.floor(lo) > 1:
+        checks += 1
+        mid = float(math.floor((lo + hi) / 2.0))
+        if mid <= lo:
+            break
+        if fits(mid):
+            hi = mid
+        else:
+            lo = mid
+    limit = math.ceil(hi)
+    why = (
+        f"; hot hold binds: the belt must take every tray of a batch within the hot-hold "
+        f"limit less the transfer, which caps the trays per batch; a hot-hold limit "
+        f"(hot_hold_max) of {limit:g} min instead of {max(now):g} min makes the orders fit"
+    )
+    return tuple(dataclasses.replace(s, rule="hot_hold", message=s.message + why) for s in found)
 
 
 PATTERN_PRICING_SHARE = 0.35
@@ -672,7 +777,9 @@ def _penalty(inputs: PlanInputs) -> float:
     return 1e3 * max(per_kg)
 
 
-def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions, solver: str):
+def _solve_patterns(
+    inputs: PlanInputs, cand: Candidates, options: SolveOptions, solver: str, cuts=None
+):
     """Pattern formulation: generate oven-shift patterns on the LP, then the MILP.
 
     Returns (model, status, gap, bound, seconds, rounds, notes, build seconds).
@@ -697,7 +804,7 @@ def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions,
             blocks[(o, os_)] = (lds, prods, kg, cyc, np.ceil(cyc - 1e-9))
     init: dict[tuple[str, str], list[ShiftPattern]] = defaultdict(list)
     lookup = {ld.key: ld for ld in loads}
-    caps = time_caps(inputs, cand)
+    caps = time_caps(inputs, cand, cuts)
     for s in inputs.shifts:
         for ld in cand.singles:
             n = math.floor(caps.oven[(ld.oven, s.name)] / ld.cycle_min + 1e-9)
@@ -707,7 +814,9 @@ def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions,
                         ld.oven, s.name, {ld.key: n}, lookup, ovens[ld.oven].changeover_min
                     )
                 )
-    model = build_model(inputs, cand, cand.mixed_pool, patterns=init, penalty=_penalty(inputs))
+    model = build_model(
+        inputs, cand, cand.mixed_pool, patterns=init, penalty=_penalty(inputs), cuts=cuts
+    )
     build_s = time.perf_counter() - tb
     t0 = time.perf_counter()
     notes: list[str] = []
@@ -1219,7 +1328,9 @@ def _staged_solve(model: PlanModel, solver: str, options: SolveOptions, *, lp_cu
     return status, gap, bound, time.perf_counter() - t0, msg
 
 
-def _compact_solve(inputs: PlanInputs, cand: Candidates, options: SolveOptions, notes: list):
+def _compact_solve(
+    inputs: PlanInputs, cand: Candidates, options: SolveOptions, notes: list, cuts=None
+):
     """Compact formulation: build, optional mixed-load column generation, staged MILP."""
     t0 = time.perf_counter()
     use_cg = (
@@ -1230,7 +1341,7 @@ def _compact_solve(inputs: PlanInputs, cand: Candidates, options: SolveOptions, 
     use_cg = bool(use_cg) and options.max_mix_products >= 2
     first = options.solver
     other = "cbc" if first == "highs" else "highs"
-    model = build_model(inputs, cand, [] if use_cg else cand.mixed_pool)
+    model = build_model(inputs, cand, [] if use_cg else cand.mixed_pool, cuts=cuts)
     build_s = time.perf_counter() - t0
     rounds = 0
     solve_s = 0.0
@@ -1284,7 +1395,43 @@ def _pattern_shadow_prices(
 
 
 def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
-    """Plan the shifts: the MILP from the dwell table, solved, with diagnostics.
+    """Plan the shifts: the bucketed MILP, then the timed schedule the floor runs.
+
+    The bucketed MILP (:func:`plan_buckets`) chooses batches, settings and
+    tunnel runs per shift; with ``options.schedule`` (the default) its plan
+    is placed in time and corrected by cut and resolve until it fits
+    (:func:`optimizer.planning.timed.timed_plan`), and the result reports the
+    schedule, the MILP's optimum staying as the bound.
+
+    Parameters
+    ----------
+    inputs : PlanInputs
+        Plant, products, shifts, orders, dwell table and objective.
+    options : SolveOptions, optional
+        Solver, time limit [s], gap [-], mixing, formulation, diagnostics and
+        scheduling options.
+
+    Returns
+    -------
+    PlanResult
+        Status, objective, plan (batches and tunnel runs), machine use,
+        shadow prices, slack, the schedule and - when nothing fits - the
+        shortfalls.
+    """
+    options = options or SolveOptions()
+    first = plan_buckets(inputs, options)
+    if not options.schedule or not first.status.has_plan:
+        return first
+    again = dataclasses.replace(options, diagnose=False)
+    return timed_plan(inputs, options, first, lambda cuts: plan_buckets(inputs, again, cuts))
+
+
+def plan_buckets(
+    inputs: PlanInputs,
+    options: SolveOptions | None = None,
+    cuts: dict[tuple[str, str], float] | None = None,
+) -> PlanResult:
+    """The bucketed MILP: machine minutes per shift, fill and drain counted, with diagnostics.
 
     Parameters
     ----------
@@ -1292,7 +1439,9 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
         Plant, products, shifts, orders, dwell table and objective.
     options : SolveOptions, optional
         Solver, time limit [s], gap [-], mixing, formulation and diagnostics
-        options.
+        options (``schedule`` is not read here).
+    cuts : dict, optional
+        (machine, shift) -> minutes taken off that machine in that shift [min].
 
     Returns
     -------
@@ -1311,7 +1460,7 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
     pricing_rounds = 0
     if options.formulation == "patterns":
         model, status, gap, bound, solve_s, pricing_rounds, pnotes, pb = _solve_patterns(
-            inputs, cand, options, options.solver
+            inputs, cand, options, options.solver, cuts
         )
         notes.extend(pnotes)
         used = options.solver
@@ -1319,7 +1468,7 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
         if status in (SolveStatus.INFEASIBLE, SolveStatus.ERROR, SolveStatus.NO_SOLUTION_IN_TIME):
             notes.append(f"pattern formulation gave {status.value}; solved the compact formulation")
             model, status, gap, bound, used, b2, s2, pricing_rounds = _compact_solve(
-                inputs, cand, options, notes
+                inputs, cand, options, notes, cuts
             )
             build_s += b2
             solve_s += s2
@@ -1327,7 +1476,7 @@ def plan(inputs: PlanInputs, options: SolveOptions | None = None) -> PlanResult:
             chosen = True
     else:
         model, status, gap, bound, used, b2, solve_s, pricing_rounds = _compact_solve(
-            inputs, cand, options, notes
+            inputs, cand, options, notes, cuts
         )
         build_s = cand_s + b2
     mixed = sorted({ld for ld in model.loads.values() if ld.is_mixed}, key=lambda ld: ld.key)

@@ -35,6 +35,7 @@ def compare_table(runs: Sequence[PlanRun], labels: Sequence[str]) -> pd.DataFram
     add("objective", "", [run.result.objective.value for run in runs])
     add("objective value", "", [run.result.objective_value for run in runs])
     add("total kg", "kg", [run.result.total_kg for run in runs])
+    add("bound kg (bucketed plan)", "kg", [run.result.bucket_kg for run in runs])
     add(
         "mean kg per shift",
         "kg",

@@ -37,6 +37,8 @@ def plan_json(run: PlanRun, files: Sequence[Path]) -> dict[str, Any]:
         "gap": r.gap,
         "solver": r.solver,
         "total_kg": r.total_kg,
+        "bucket_kg": r.bucket_kg,
+        "bucket_value": r.bucket_value,
         "bottleneck": _bottleneck_json(r),
         "shortfalls": [s.message for s in r.shortfalls],
         "excluded": {k: list(v) for k, v in r.excluded.items()},

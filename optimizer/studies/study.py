@@ -1316,6 +1316,7 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
     from optimizer.planning.adapter import plan_inputs
     from optimizer.planning.inputs import SolveOptions
     from optimizer.planning.run import plan_checked
+    from optimizer.planning.solve import plan_buckets
 
     head = {"index": point.index, "label": point.label}
     try:
@@ -1330,7 +1331,7 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
             "has_plan": False,
             "message": str(exc).replace("\n", "; "),
         }
-    dwell, _, result = plan_checked(scenario, dwell, options)
+    dwell, _, result = plan_checked(scenario, dwell, options, solve=plan_buckets)
     return {**head, **plan_row(scenario, dwell, result)}
 
 

@@ -34,7 +34,7 @@ from optimizer.planning.inputs import (
     SolveOptions,
     TunnelData,
 )
-from optimizer.planning.solve import plan
+from optimizer.planning.solve import plan_buckets
 
 SIZES = {
     # name: products, ovens, oven settings, tunnels, tunnel settings, shifts
@@ -171,7 +171,7 @@ def generate_plant(
 def run(size: str, solver: str, time_limit: float, gap: float, threads: int, mix: int = 2) -> dict:
     inp = generate_plant(*SIZES[size])
     t0 = time.perf_counter()
-    r = plan(
+    r = plan_buckets(
         inp,
         SolveOptions(
             solver=solver,
