@@ -718,7 +718,6 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
     belt speed.
     """
     from optimizer.dwell import convert, stages
-    from optimizer.dwell import table as dwell
     from optimizer.scenario.models import load_scenario
     from thermal import process
 
@@ -760,7 +759,7 @@ def test_every_planned_batch_and_tunnel_run_meets_its_rules(demo_plan, plant):
         rule = convert.chill_rule(scenario.chill_rule(spec), 0.0)
         _, start = exit_profile[(run.shift, run.product, run.oven, run.oven_setting)]
         residence = tunnel.length / run.belt_speed_m_per_min * 60.0
-        for wait in dwell._hold_waits(tunnel):
+        for wait in stages.hold_waits(tunnel):
             hist, _ = process.run_stages(
                 convert.thermal_product(spec),
                 start,

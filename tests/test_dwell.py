@@ -498,7 +498,9 @@ def test_second_build_reads_one_table_file(counters, tmp_path, monkeypatch):
     assert {n.split("-")[0] for n in names} == {"cook", "chill", "table"}
     reads: list[str] = []
     real = dwell.read_entry
-    monkeypatch.setattr(dwell, "read_entry", lambda c, n: reads.append(n) or real(c, n))
+    monkeypatch.setattr(
+        dwell, "read_entry", lambda c, n, *a, **k: reads.append(n) or real(c, n, *a, **k)
+    )
     counters.update(cook=0, chill=0)
     again = build_dwell_table(_one_cell(), cache_dir=cache, options=FAST, workers=1)
     assert counters == {"cook": 0, "chill": 0}

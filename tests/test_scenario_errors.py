@@ -171,7 +171,7 @@ CASES = [
     (
         "fractional-tray-count",
         _set("ovens/0/trays", 2.5),
-        "ovens[0].trays: must be a whole number >= 1, got 2.5",
+        "ovens[0].trays: must be a whole number from 1 to 10,000, got 2.5",
     ),
     (
         "humidity-as-percent-number",

@@ -54,7 +54,7 @@ import argparse
 import re
 import time
 import warnings
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 
 from optimizer.cli import (
@@ -78,7 +78,7 @@ from optimizer.cli.common import (
 )
 from optimizer.cli.options import Formatter
 from optimizer.cli.terminal import Ui
-from optimizer.dwell.errors import ThermalInputError, ValidityWarning
+from optimizer.dwell.errors import CacheWarning, ThermalInputError, ValidityWarning
 from optimizer.planning.inputs import PlanInputError
 from optimizer.reporting import export
 from optimizer.scenario.provenance import tool_version
@@ -161,7 +161,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     start = time.perf_counter()
     extrapolated: dict[str, int] = {}
     try:
-        with _validity_notes(extrapolated):
+        with _validity_notes(extrapolated, ui.problem):
             code = args.func(args, ui)
     except BadInput as exc:
         for line in exc.problems:
@@ -193,17 +193,23 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 @contextmanager
-def _validity_notes(counts: dict[str, int]) -> Iterator[None]:
+def _validity_notes(
+    counts: dict[str, int], note: Callable[[str], None] | None = None
+) -> Iterator[None]:
     """Collect the physics' out-of-range warnings as one note per kind.
 
     A correlation used outside its validity range warns once per case with
     the value; a person needs the kind and how often, not a line per cell.
-    Other warnings are shown as usual.
+    A dwell-cache entry refused or corrected is told at once as ``note(line)``
+    when ``note`` is given (even with ``--quiet``). Other warnings are shown
+    as usual.
     """
     shown = warnings.showwarning
 
     def show(message, category, filename, lineno, file=None, line=None):
-        if issubclass(category, ValidityWarning):
+        if note is not None and issubclass(category, CacheWarning):
+            note(f"note: {message}")
+        elif issubclass(category, ValidityWarning):
             text = re.sub(r" = [-+0-9.eE]+", "", str(message))
             counts[text] = counts.get(text, 0) + 1
         else:
@@ -211,6 +217,7 @@ def _validity_notes(counts: dict[str, int]) -> Iterator[None]:
 
     with warnings.catch_warnings():
         warnings.simplefilter("always", ValidityWarning)
+        warnings.simplefilter("always", CacheWarning)
         warnings.showwarning = show
         yield
 

@@ -9,7 +9,6 @@ from optimizer.cli.common import (
     dwell_table,
     load,
     out_dir,
-    prepare_out,
     say_written,
     solve_options,
     status_code,
@@ -64,14 +63,17 @@ def run_plan(path: str, scenario: Scenario, args: argparse.Namespace, ui: Ui) ->
 def cmd_plan(args: argparse.Namespace, ui: Ui) -> int:
     """``corepace plan SCENARIO``: the shift plan, its tables and its report."""
     # the report brings matplotlib (about 0.6 s): imported only by the commands that draw
+    from optimizer.reporting.outset import output_set
     from optimizer.reporting.plan import plan_json, write_plan_outputs
 
     scenario = load(args.scenario, args)
     target = out_dir(args, args.scenario)
-    run = run_plan(args.scenario, scenario, args, ui)
-    prepare_out(target)
-    with ui.status("writing the report"):
-        written = write_plan_outputs(run, target, args.argv_text)
+    # --out checked and locked before the work, written as one set, swapped in at the end
+    with output_set(target) as staging:
+        run = run_plan(args.scenario, scenario, args, ui)
+        with ui.status("writing the report"):
+            staged = write_plan_outputs(run, staging, args.argv_text, named_as=target)
+    written = [target / p.name for p in staged]
     ui.emit_json(plan_json(run, written))
     plan_summary(run, ui)
     say_written(ui, written)

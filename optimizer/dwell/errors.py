@@ -7,4 +7,12 @@ take the classes from here.
 
 from thermal.errors import ThermalInputError, UnreachableTargetError, ValidityWarning
 
-__all__ = ["ThermalInputError", "UnreachableTargetError", "ValidityWarning"]
+__all__ = ["CacheWarning", "ThermalInputError", "UnreachableTargetError", "ValidityWarning"]
+
+
+class CacheWarning(UserWarning):
+    """A dwell cache entry was refused or did not match the physics, and was recomputed.
+
+    One line each; the command shows them as notes. The values used are
+    always the physics' own.
+    """

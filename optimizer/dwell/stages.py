@@ -13,7 +13,17 @@ from optimizer.scenario.units import minutes_to_seconds
 from thermal.process import TransferStage as ThermalTransfer
 from thermal.process import TunnelZone as ThermalZone
 
-__all__ = ["transfer_stage", "tunnel_zones"]
+__all__ = ["hold_waits", "transfer_stage", "tunnel_zones"]
+
+
+def hold_waits(tunnel: Tunnel) -> list[float]:
+    """Waits between oven and belt to check [min]: the transfer and the hot-hold limit."""
+    if tunnel.transfer is None:
+        return [0.0]
+    waits = [tunnel.transfer.duration]
+    if tunnel.hot_hold_max is not None and tunnel.hot_hold_max > tunnel.transfer.duration:
+        waits.append(tunnel.hot_hold_max)
+    return waits
 
 
 def tunnel_zones(

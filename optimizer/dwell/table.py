@@ -62,6 +62,15 @@ whole table. A second build of the same scenario reads one file; changing a
 product's size, an air temperature or a rule recomputes only the cells that
 depend on it. Files are written atomically (temporary file, then rename).
 
+A cache is never trusted silently. Each entry carries a digest of its
+inputs and its values, and a value must have the shape of a cell or table
+this module writes (:mod:`optimizer.dwell.cache`); an entry that fails is
+recomputed with a :class:`~optimizer.dwell.errors.CacheWarning`. A plan
+re-verifies every cell it uses against the physics (:func:`verify_rows`,
+called by :func:`optimizer.planning.run.plan_checked`): the cells this
+process did not compute itself are computed again, and a row that differs
+is replaced, noted, and the plan made again.
+
 Computing
 ---------
 The cells missing from the cache are computed together: first every missing
@@ -94,6 +103,7 @@ from optimizer.dwell.cache import (
     dwell_cache_key,
     physics_salt,
     read_entry,
+    remove_entry,
     write_entry,
 )
 from optimizer.dwell.convert import (
@@ -103,7 +113,9 @@ from optimizer.dwell.convert import (
     loading_factor,
     thermal_product,
 )
-from optimizer.dwell.stages import transfer_stage, tunnel_zones
+from optimizer.dwell.errors import CacheWarning
+from optimizer.dwell.stages import hold_waits, transfer_stage, tunnel_zones
+from optimizer.dwell.workers import pool_initializer
 from optimizer.scenario.models import (
     Oven,
     OvenSetting,
@@ -120,6 +132,7 @@ __all__ = [
     "SolverOptions",
     "build_dwell_table",
     "ruled_out_table",
+    "verify_rows",
     "write_dwell_csv",
 ]
 
@@ -195,16 +208,6 @@ class SolverOptions:
         return {1: self.cells_1d, 2: self.cells_2d}.get(n_directions, self.cells_3d)
 
 
-def _hold_waits(tunnel: Tunnel) -> list[float]:
-    """Waits between oven and belt to check [min]: the transfer and the hot-hold limit."""
-    if tunnel.transfer is None:
-        return [0.0]
-    waits = [tunnel.transfer.duration]
-    if tunnel.hot_hold_max is not None and tunnel.hot_hold_max > tunnel.transfer.duration:
-        waits.append(tunnel.hot_hold_max)
-    return waits
-
-
 # ------------------------------------------------------------------------ the cells
 
 
@@ -249,7 +252,7 @@ def _chill_inputs(
         "cook": cook_key,
         "product": _product_inputs(product),
         "transfer": None if tunnel.transfer is None else tunnel.transfer.model_dump(mode="json"),
-        "waits": _hold_waits(tunnel),
+        "waits": hold_waits(tunnel),
         "zones": [
             z.model_dump(mode="json", exclude={"name", "length", "length_fraction"})
             for z in setting.zones
@@ -352,7 +355,7 @@ def _compute_chill(
         None if prof["density"] is None else np.asarray(prof["density"], dtype=float),
     )
     zones = tunnel_zones(tunnel, setting, factor)
-    waits = _hold_waits(tunnel)
+    waits = hold_waits(tunnel)
     try:
         res = yield from process.required_chill_job(
             piece,
@@ -476,26 +479,72 @@ def _run_jobs(
     return [{**o.value, "notes": _notes(o.warnings)} for o in outcomes]
 
 
+_PHYSICS_CELLS: dict[str, dict[str, Any]] = {}
+"""Cells this process computed from the physics, by entry name (what verification trusts)."""
+
+_PHYSICS_CELLS_MAX = 20_000
+"""Most cells remembered in :data:`_PHYSICS_CELLS` (the oldest are forgotten first)."""
+
+
+def _remember(name: str, value: dict[str, Any]) -> None:
+    _PHYSICS_CELLS[name] = value
+    while len(_PHYSICS_CELLS) > _PHYSICS_CELLS_MAX:
+        del _PHYSICS_CELLS[next(iter(_PHYSICS_CELLS))]
+
+
+@dataclass(frozen=True)
+class _Store:
+    """Where :func:`_run_tasks` reads known cells and writes computed ones (picklable).
+
+    ``cache``: the disk cache (None: none). With ``physics_only`` only cells
+    this process computed from the physics count as known (verification).
+    """
+
+    cache: Path | None
+    physics_only: bool = False
+
+    def read(self, name: str, notices: list[str]) -> dict[str, Any] | None:
+        if self.physics_only:
+            return _PHYSICS_CELLS.get(name)
+        kind = "cook" if name.startswith("cook-") else "chill"
+        return read_entry(self.cache, name, lambda v: _cell_problem(v, kind), notice=notices.append)
+
+    def write(self, name: str, value: dict[str, Any], trusted: bool = True) -> None:
+        """Store a computed cell; ``trusted``: computed from physics values only."""
+        if trusted:
+            _remember(name, value)
+        if not self.physics_only:
+            write_entry(self.cache, name, value)
+
+
 def _run_tasks(
     scenario: Scenario,
     tasks: Sequence[_Task],
-    cache: Path | None,
+    store: _Store,
     options: SolverOptions,
     progress: Callable[[_Task], None] | None = None,
-) -> tuple[dict[str, dict[str, Any]], dict[str, dict[str, Any]]]:
-    """Compute (or read) the cells of ``tasks``: ({cook key: cook}, {chill key: chill}).
+) -> tuple[dict[str, dict[str, Any]], dict[str, dict[str, Any]], list[str], list[str]]:
+    """Compute (or read) the cells of ``tasks``.
 
-    Cells read from the cache are not recomputed; the missing cook cells run
-    as one set of batched jobs, then the missing chill cells (which start
-    from the cook cells' exit states) as another. ``progress(task)`` is
-    called once a task's cook and chill cells are all known.
+    Cells ``store`` knows are not recomputed; the missing cook cells run as
+    one set of batched jobs, then the missing chill cells (which start from
+    the cook cells' exit states) as another. ``progress(task)`` is called
+    once a task's cook and chill cells are all known.
+
+    Returns
+    -------
+    tuple
+        ({cook key: cook}, {chill key: chill}, names of the entries computed,
+        notices about cache entries refused).
     """
+    notices: list[str] = []
+    computed: list[str] = []
     cooks: dict[str, dict[str, Any]] = {}
     todo: list[_Task] = []
     for task in tasks:
         if task.cook_key in cooks or any(t.cook_key == task.cook_key for t in todo):
             continue
-        cook = read_entry(cache, f"cook-{task.cook_key}.json")
+        cook = store.read(f"cook-{task.cook_key}.json", notices)
         if cook is None:
             todo.append(task)
         else:
@@ -505,7 +554,8 @@ def _run_tasks(
         setting = next(st for st in scenario.oven(task.oven).settings if st.name == task.setting)
         jobs.append(_compute_cook(scenario, scenario.product(task.product), setting, options))
     for task, cook in zip(todo, _run_jobs(jobs, lambda i: None), strict=True):
-        write_entry(cache, f"cook-{task.cook_key}.json", cook)
+        store.write(f"cook-{task.cook_key}.json", cook)
+        computed.append(f"cook-{task.cook_key}.json")
         cooks[task.cook_key] = cook
 
     chills: dict[str, dict[str, Any]] = {}
@@ -517,7 +567,7 @@ def _run_tasks(
             if key in chills or key in missing:
                 continue
             chill = (
-                _NOT_COMPUTED if not cook["feasible"] else read_entry(cache, f"chill-{key}.json")
+                _NOT_COMPUTED if not cook["feasible"] else store.read(f"chill-{key}.json", notices)
             )
             if chill is None:
                 missing[key] = (task, tunnel_name, tset_name, factor)
@@ -544,14 +594,230 @@ def _run_tasks(
                     progress(task)
 
     for key, chill in zip(keys, _run_jobs(jobs, chill_done), strict=True):
-        write_entry(cache, f"chill-{key}.json", chill)
+        # a chill starts from its cook's exit state: it is the physics' own only when the
+        # cook is (not one read from the disk cache)
+        trusted = f"cook-{missing[key][0].cook_key}.json" in _PHYSICS_CELLS
+        store.write(f"chill-{key}.json", chill, trusted)
+        if trusted:
+            computed.append(f"chill-{key}.json")
         chills[key] = chill
-    return cooks, chills
+    return cooks, chills, computed, notices
+
+
+@dataclass(frozen=True)
+class _Keys:
+    """The cache keys of a scenario's cells, and the order of its rows."""
+
+    cells: list[tuple[Product, Oven, OvenSetting, Tunnel, Any, Any]]
+    cooks: dict[tuple[str, str, str], str]  # (product, oven, setting) -> cook key
+    chills: dict[tuple[str, ...], str]  # row key (DWELL_KEYS) -> chill key
+    chills_of: dict[tuple[str, str, str], dict[str, tuple[str, str, str, float]]]
+    table_name: str
+
+    @classmethod
+    def of(cls, scenario: Scenario, options: SolverOptions) -> _Keys:
+        salt = physics_salt()
+        cells = _cells(scenario)
+        cooks: dict[tuple[str, str, str], str] = {}
+        chills: dict[tuple[str, ...], str] = {}
+        chills_of: dict[tuple[str, str, str], dict[str, tuple[str, str, str, float]]] = {}
+        for product, oven, oset, tunnel, tset, loading in cells:
+            ck = (product.name, oven.name, oset.name)
+            if ck not in cooks:
+                cooks[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
+                chills_of[ck] = {}
+            factor = loading_factor(loading, tset)
+            key = dwell_cache_key(
+                _chill_inputs(scenario, product, cooks[ck], tunnel, tset, factor, options), salt
+            )
+            chills[(*ck, tunnel.name, tset.name, loading.name)] = key
+            chills_of[ck].setdefault(key, (key, tunnel.name, tset.name, factor))
+        belts = {t.name: (t.length, t.belt_speed_min, t.belt_speed_max) for t in scenario.tunnels}
+        table_key = dwell_cache_key(
+            {"rows": [[*k, v] for k, v in chills.items()], "belts": belts}, salt
+        )
+        return cls(cells, cooks, chills, chills_of, f"table-{table_key}.json")
+
+    def tasks(self, rows: Iterable[tuple[str, ...]] | None = None) -> list[_Task]:
+        """The tasks computing every cell, or only those behind the row keys ``rows``."""
+        if rows is None:
+            return [
+                _Task(*ck, key, tuple(self.chills_of[ck].values()))
+                for ck, key in self.cooks.items()
+            ]
+        wanted: dict[tuple[str, str, str], dict[str, None]] = {}
+        for row in rows:
+            wanted.setdefault(row[:3], {})[self.chills[row]] = None
+        return [
+            _Task(*ck, self.cooks[ck], tuple(self.chills_of[ck][k] for k in keys))
+            for ck, keys in wanted.items()
+        ]
+
+    def rows(
+        self,
+        scenario: Scenario,
+        cooks: dict[str, dict[str, Any]],
+        chills: dict[str, dict[str, Any]],
+        only: set[tuple[str, ...]] | None = None,
+    ) -> list[dict[str, Any]]:
+        """The table rows from the cells, in scenario order (or only the row keys ``only``)."""
+        out = []
+        for product, oven, oset, tunnel, tset, loading in self.cells:
+            row = (product.name, oven.name, oset.name, tunnel.name, tset.name, loading.name)
+            if only is not None and row not in only:
+                continue
+            cook, chill = cooks[self.cooks[row[:3]]], chills[self.chills[row]]
+            out.append(_row(product, oven, oset, tunnel, tset, loading, cook, chill))
+        return out
+
+
+def _warn(notices: Iterable[str]) -> None:
+    for text in dict.fromkeys(notices):
+        warnings.warn(text, CacheWarning, stacklevel=3)
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _shape_of(value: Any, depth: int = 0) -> tuple[int, ...] | None:
+    """Shape of a profile (nested lists of finite numbers, up to 3 deep), None when not one."""
+    if not isinstance(value, list) or not value or depth > 3:
+        return None
+    if all(_is_number(x) and math.isfinite(x) for x in value):
+        return (len(value),)
+    inner = {_shape_of(x, depth + 1) for x in value}
+    if len(inner) != 1 or None in inner:
+        return None
+    return (len(value), *inner.pop())
+
+
+def _cell_problem(value: Any, kind: str) -> str | None:
+    """Why a cached cook or chill cell cannot be a cell :func:`_compute_cook` made, or None."""
+    if not isinstance(value, dict):
+        return f"a {kind} cell must be a mapping, got {type(value).__name__}"
+    heat = "heat_in_kj_per_kg" if kind == "cook" else "heat_out_kj_per_kg"
+    kinds = {"feasible": bool, "binding": str, "reason": str, "method": str, "notes": list}
+    for name, want in kinds.items():
+        if not isinstance(value.get(name), want):
+            return f"{kind} cell field {name!r} missing or not {want.__name__}"
+    if not all(isinstance(n, str) for n in value["notes"]):
+        return f"{kind} cell notes must be text"
+    for name in ("minutes", heat):
+        if not _is_number(value.get(name)):
+            return f"{kind} cell field {name!r} missing or not a number"
+    if not value["feasible"]:
+        return None
+    minutes, required = value["minutes"], value.get("required_minutes")
+    if not (math.isfinite(minutes) and minutes > 0):
+        return f"a feasible {kind} cell needs minutes > 0, got {minutes!r}"
+    if not (_is_number(required) and 0 < required <= minutes):
+        return f"a feasible {kind} cell needs 0 < required_minutes <= minutes"
+    if kind == "cook":
+        profile = value.get("profile")
+        shape = _shape_of(profile.get("temperature")) if isinstance(profile, dict) else None
+        if shape is None:
+            return "a feasible cook cell needs its exit temperature profile"
+        density = profile.get("density")
+        if not (
+            density is None
+            or (_is_number(density) and math.isfinite(density))
+            or _shape_of(density) == shape[:1]  # one density per batch member
+        ):
+            return "the exit profile's density does not match its temperatures"
+        if not (_is_number(value.get("h")) and math.isfinite(value["h"]) and value["h"] > 0):
+            return "a feasible cook cell needs its surface coefficient h > 0"
+    return None
+
+
+_NUMBER_COLUMNS = (
+    "cook_min",
+    "heat_in_kj_per_kg",
+    "chill_min",
+    "heat_out_kj_per_kg",
+    "max_belt_speed_m_per_min",
+)
+_BOOL_COLUMNS = ("cook_feasible", "chill_feasible", "feasible")
+
+
+def _table_problem(value: Any, expected: Sequence[tuple[str, ...]]) -> str | None:
+    """Why a cached table cannot be the table of the row keys ``expected``, or None."""
+    if not isinstance(value, list):
+        return f"a table must be a list of rows, got {type(value).__name__}"
+    if len(value) != len(expected):
+        return f"{len(value)} rows where the scenario has {len(expected)}"
+    for row, key in zip(value, expected, strict=True):
+        if not isinstance(row, dict) or set(row) != set(COLUMNS):
+            return "a row without the dwell-table columns"
+        if tuple(row[c] for c in DWELL_KEYS) != key:
+            return "rows of another scenario"
+        if not all(_is_number(row[c]) for c in _NUMBER_COLUMNS):
+            return "a row whose minutes, heat or belt speed is not a number"
+        if not all(isinstance(row[c], bool) for c in _BOOL_COLUMNS):
+            return "a row whose feasibility is not true or false"
+        if row["feasible"] and not all(
+            math.isfinite(row[c]) and row[c] > 0
+            for c in ("cook_min", "chill_min", "max_belt_speed_m_per_min")
+        ):
+            return "a feasible row without positive minutes and belt speed"
+    return None
 
 
 def _default_workers(n_tasks: int) -> int:
     cpus = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
     return max(1, min(cpus or 1, n_tasks)) if n_tasks >= 4 else 1
+
+
+def _compute(
+    scenario: Scenario,
+    tasks: Sequence[_Task],
+    store: _Store,
+    options: SolverOptions,
+    workers: int | None,
+    finished: Callable[[_Task], None] | None = None,
+) -> tuple[dict[str, dict[str, Any]], dict[str, dict[str, Any]], list[str]]:
+    """:func:`_run_tasks` on ``workers`` processes (default :func:`_default_workers`).
+
+    Returns ({cook key: cook}, {chill key: chill}, notices); cells computed
+    from the physics in a worker are remembered here as in the worker.
+    """
+    n_workers = _default_workers(len(tasks)) if workers is None else max(1, int(workers))
+    n_workers = min(n_workers, len(tasks))
+    if n_workers <= 1:
+        cooks, chills, _, notices = _run_tasks(scenario, tasks, store, options, finished)
+        return cooks, chills, notices
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+
+    cooks: dict[str, dict[str, Any]] = {}
+    chills: dict[str, dict[str, Any]] = {}
+    notices: list[str] = []
+    # fork where the platform has it: workers only compute (no terminal output), and
+    # fork does not re-run the caller's main script as spawn would
+    methods = multiprocessing.get_all_start_methods()
+    context = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    # a fixed share of the tasks per worker; a cell's value does not depend on the
+    # other cells batched with it, so neither the split nor the timing matters
+    shares = [tasks[i::n_workers] for i in range(n_workers)]
+    initializer, initargs = pool_initializer()  # no orphans when this process is killed
+    with ProcessPoolExecutor(
+        max_workers=n_workers, mp_context=context, initializer=initializer, initargs=initargs
+    ) as pool:
+        futures = {
+            pool.submit(_run_tasks, scenario, share, store, options): share for share in shares
+        }
+        for future in as_completed(futures):
+            part_cooks, part_chills, computed, part_notices = future.result()
+            cooks.update(part_cooks)
+            chills.update(part_chills)
+            for name in computed:  # computed from the physics in a worker
+                kind, _, key = name.removesuffix(".json").partition("-")
+                _remember(name, (part_cooks if kind == "cook" else part_chills)[key])
+            notices += part_notices
+            for task in futures[future]:
+                if finished is not None:
+                    finished(task)
+    return cooks, chills, notices
 
 
 def build_dwell_table(
@@ -596,37 +862,23 @@ def build_dwell_table(
     """
     options = options or SolverOptions()
     cache = None if cache_dir is None else Path(cache_dir)
-    salt = physics_salt()
-    cells = _cells(scenario)
-
-    cook_keys: dict[tuple[str, str, str], str] = {}
-    chill_keys: dict[tuple[str, ...], str] = {}
-    chills_of: dict[tuple[str, str, str], dict[str, tuple[str, str, str, float]]] = {}
-    for product, oven, oset, tunnel, tset, loading in cells:
-        ck = (product.name, oven.name, oset.name)
-        if ck not in cook_keys:
-            cook_keys[ck] = dwell_cache_key(_cook_inputs(scenario, product, oset, options), salt)
-            chills_of[ck] = {}
-        factor = loading_factor(loading, tset)
-        key = dwell_cache_key(
-            _chill_inputs(scenario, product, cook_keys[ck], tunnel, tset, factor, options), salt
-        )
-        chill_keys[(*ck, tunnel.name, tset.name, loading.name)] = key
-        chills_of[ck].setdefault(key, (key, tunnel.name, tset.name, factor))
-    belts = {t.name: (t.length, t.belt_speed_min, t.belt_speed_max) for t in scenario.tunnels}
-    table_key = dwell_cache_key(
-        {"rows": [[*k, v] for k, v in chill_keys.items()], "belts": belts}, salt
+    keys = _Keys.of(scenario, options)
+    total = len(keys.cooks) + sum(len(v) for v in keys.chills_of.values())
+    notices: list[str] = []
+    expected = list(keys.chills)
+    cached = read_entry(
+        cache,
+        keys.table_name,
+        lambda v: _table_problem(v, expected),
+        notice=notices.append,
     )
-    total = len(cook_keys) + sum(len(v) for v in chills_of.values())
-    cached = read_entry(cache, f"table-{table_key}.json")
+    _warn(notices)
     if cached is not None:
         if progress is not None:
             progress(total, total, "read from the cache")
-        return _frame(cached)
+        return _frame(cached, cache, options, keys.table_name)
 
-    tasks = [_Task(*ck, cook_keys[ck], tuple(chills_of[ck].values())) for ck in cook_keys]
-    cooks: dict[str, dict[str, Any]] = {}
-    chills: dict[str, dict[str, Any]] = {}
+    tasks = keys.tasks()
     done = 0
 
     def finished(task: _Task) -> None:
@@ -635,40 +887,131 @@ def build_dwell_table(
         if progress is not None:
             progress(done, total, f"{task.product} in {task.oven}/{task.setting}")
 
-    n_workers = _default_workers(len(tasks)) if workers is None else max(1, int(workers))
-    n_workers = min(n_workers, len(tasks))
-    if n_workers <= 1:
-        cooks, chills = _run_tasks(scenario, tasks, cache, options, finished)
-    else:
-        import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor, as_completed
+    cooks, chills, notices = _compute(scenario, tasks, _Store(cache), options, workers, finished)
+    _warn(notices)
+    rows = keys.rows(scenario, cooks, chills)
+    write_entry(cache, keys.table_name, rows)
+    return _frame(rows, cache, options, keys.table_name)
 
-        # fork where the platform has it: workers only compute (no terminal output), and
-        # fork does not re-run the caller's main script as spawn would
-        methods = multiprocessing.get_all_start_methods()
-        context = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
-        # a fixed share of the tasks per worker; a cell's value does not depend on the
-        # other cells batched with it, so neither the split nor the timing matters
-        shares = [tasks[i::n_workers] for i in range(n_workers)]
-        with ProcessPoolExecutor(max_workers=n_workers, mp_context=context) as pool:
-            futures = {
-                pool.submit(_run_tasks, scenario, share, cache, options): share for share in shares
-            }
-            for future in as_completed(futures):
-                part_cooks, part_chills = future.result()
-                cooks.update(part_cooks)
-                chills.update(part_chills)
-                for task in futures[future]:
-                    finished(task)
 
-    rows = []
-    for product, oven, oset, tunnel, tset, loading in cells:
-        ck = (product.name, oven.name, oset.name)
-        chill = chills[chill_keys[(*ck, tunnel.name, tset.name, loading.name)]]
-        cook = cooks[cook_keys[ck]]
-        rows.append(_row(product, oven, oset, tunnel, tset, loading, cook, chill))
-    write_entry(cache, f"table-{table_key}.json", rows)
-    return _frame(rows)
+def _same(a: Any, b: Any) -> bool:
+    if _is_number(a) and _is_number(b):
+        if math.isnan(a) or math.isnan(b):
+            return math.isnan(a) and math.isnan(b)
+        return math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-12)
+    return bool(a == b)
+
+
+def verify_rows(
+    scenario: Scenario,
+    dwell: pd.DataFrame,
+    rows: Iterable[tuple[str, ...]],
+    cooks: Iterable[tuple[str, str, str]] = (),
+) -> pd.DataFrame | None:
+    """Check dwell-table rows against the physics; the table corrected when any differ.
+
+    Every cell behind the rows ``rows`` (row keys, :data:`DWELL_KEYS`) and
+    the cook cells ``cooks`` (product, oven, oven setting) that this process
+    has not computed from the physics itself is computed again (no cache).
+    The rows ``rows`` are compared with the physics in every column but
+    ``notes``, and every row sharing a checked cook cell in its cook columns
+    (numbers to 1e-9 relative). A row that differs came from a cache entry
+    that does not hold the physics' values: a
+    :class:`~optimizer.dwell.errors.CacheWarning` says which, the cache
+    entries are replaced by the physics' values, and the corrected table is
+    returned for the plan to be made again.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario the table was built for.
+    dwell : pandas.DataFrame
+        A table from :func:`build_dwell_table` (one without its build record,
+        e.g. read back from CSV, is not checked).
+    rows : iterable of tuple of str
+        Row keys to check (the routes a plan's tunnel runs use).
+    cooks : iterable of tuple of str
+        Cook cells to check (those a plan's oven batches use).
+
+    Returns
+    -------
+    pandas.DataFrame or None
+        None when every row checked holds the physics' values, else the
+        table with the differing rows replaced.
+    """
+    build = dwell.attrs.get(_BUILD)
+    wanted = list(dict.fromkeys(tuple(r) for r in rows))
+    options = SolverOptions(**build["options"]) if build else None
+    keys = _Keys.of(scenario, options) if options is not None else None
+    if keys is None or keys.table_name != build["table"]:
+        return None  # not a table built here for this scenario: nothing to compare with
+    wanted_cooks = {tuple(c) for c in cooks} | {r[:3] for r in wanted}
+    if any(r not in keys.chills for r in wanted) or any(c not in keys.cooks for c in wanted_cooks):
+        return None
+    tasks = keys.tasks(wanted)
+    tasks += [
+        _Task(*ck, keys.cooks[ck], ()) for ck in sorted(wanted_cooks - {r[:3] for r in wanted})
+    ]
+    store = _Store(None, physics_only=True)
+
+    def known(task: _Task) -> bool:
+        names = [f"cook-{task.cook_key}.json", *(f"chill-{k}.json" for k, *_ in task.chills)]
+        return all(name in _PHYSICS_CELLS for name in names)
+
+    _compute(scenario, [t for t in tasks if not known(t)], store, options, None)
+    got_cooks, got_chills, _, _ = _run_tasks(scenario, tasks, store, options)
+    physics = {
+        tuple(r[c] for c in DWELL_KEYS): r
+        for r in keys.rows(scenario, got_cooks, got_chills, set(wanted))
+    }
+    records = dwell.to_dict("records")
+    wrong: dict[int, tuple[str, ...]] = {}
+    for i, have in enumerate(records):
+        key = tuple(have[c] for c in DWELL_KEYS)
+        if key in physics:
+            want = physics[key]
+        elif key[:3] in wanted_cooks:
+            want = {**have, **_cook_columns(got_cooks[keys.cooks[key[:3]]])}
+        else:
+            continue
+        differ = [c for c in COLUMNS if c != "notes" and not _same(have[c], want[c])]
+        if not differ:
+            continue
+        wrong[i] = key
+        records[i] = want
+        c = differ[0]
+        _warn(
+            [
+                f"dwell cache: {key[0]} in {key[1]}/{key[2]} through {key[3]}/{key[4]}/"
+                f"{key[5]}: the cached {c} ({have[c]}) is not the physics' ({want[c]}); the "
+                "cache entry is replaced and the plan made again from the physics"
+            ]
+        )
+    if not wrong:
+        return None
+    cache = None if build["cache"] is None else Path(build["cache"])
+    for key in wrong.values():
+        cook_key = keys.cooks[key[:3]]
+        write_entry(cache, f"cook-{cook_key}.json", got_cooks[cook_key])
+        if key in physics:
+            write_entry(cache, f"chill-{keys.chills[key]}.json", got_chills[keys.chills[key]])
+        else:  # its chill was computed from the refused cook: recompute it next time
+            remove_entry(cache, f"chill-{keys.chills[key]}.json")
+    remove_entry(cache, keys.table_name)
+    corrected = _plain_frame(records)
+    corrected.attrs[_BUILD] = dict(build)
+    return corrected
+
+
+def _cook_columns(cook: dict[str, Any]) -> dict[str, Any]:
+    return {
+        "cook_min": cook["minutes"],
+        "cook_feasible": bool(cook["feasible"]),
+        "cook_binding": cook["binding"],
+        "cook_reason": cook["reason"],
+        "cook_method": cook["method"],
+        "heat_in_kj_per_kg": cook["heat_in_kj_per_kg"],
+    }
 
 
 def _row(product, oven, oset, tunnel, tset, loading, cook, chill) -> dict[str, Any]:
@@ -684,12 +1027,7 @@ def _row(product, oven, oset, tunnel, tset, loading, cook, chill) -> dict[str, A
         "tunnel": tunnel.name,
         "tunnel_setting": tset.name,
         "loading": loading.name,
-        "cook_min": cook["minutes"],
-        "cook_feasible": bool(cook["feasible"]),
-        "cook_binding": cook["binding"],
-        "cook_reason": cook["reason"],
-        "cook_method": cook["method"],
-        "heat_in_kj_per_kg": cook["heat_in_kj_per_kg"],
+        **_cook_columns(cook),
         "chill_min": chill["minutes"],
         "chill_feasible": bool(chill["feasible"]),
         "chill_binding": chill["binding"],
@@ -703,7 +1041,27 @@ def _row(product, oven, oset, tunnel, tset, loading, cook, chill) -> dict[str, A
     }
 
 
-def _frame(rows: Sequence[dict[str, Any]]) -> pd.DataFrame:
+_BUILD = "corepace_dwell_build"
+"""``DataFrame.attrs`` key: how the table was built (options, cache, table entry)."""
+
+
+def _frame(
+    rows: Sequence[dict[str, Any]],
+    cache: Path | None = None,
+    options: SolverOptions | None = None,
+    table_name: str | None = None,
+) -> pd.DataFrame:
+    frame = _plain_frame(rows)
+    if options is not None:
+        frame.attrs[_BUILD] = {
+            "options": dict(options.__dict__),
+            "cache": None if cache is None else str(cache),
+            "table": table_name,
+        }
+    return frame
+
+
+def _plain_frame(rows: Sequence[dict[str, Any]]) -> pd.DataFrame:
     frame = pd.DataFrame(list(rows), columns=list(COLUMNS))
     for c in (
         "cook_min",

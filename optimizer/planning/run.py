@@ -7,6 +7,7 @@ notebook share (``optimizer.plan_scenario`` returns one).
 from __future__ import annotations
 
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -15,7 +16,7 @@ import pandas as pd
 from optimizer.dwell.assumptions import assumptions, assumptions_table
 from optimizer.dwell.describe import rules_table
 from optimizer.dwell.histories import CurveSet, Route, route_history
-from optimizer.dwell.table import DWELL_KEYS, ruled_out_table
+from optimizer.dwell.table import DWELL_KEYS, ruled_out_table, verify_rows
 from optimizer.planning.adapter import plan_inputs
 from optimizer.planning.highs import quiet_solver_banner
 from optimizer.planning.inputs import PlanInputs, SolveOptions
@@ -30,6 +31,7 @@ __all__ = [
     "dwell_notes",
     "dwell_used_table",
     "main_routes",
+    "plan_checked",
     "solve_run",
     "summarise_notes",
     "temperature_curves",
@@ -98,9 +100,7 @@ def solve_run(
         ``dwell_ruled_out`` and ``assumptions`` (the register of the planned
         products' dwell rows, :mod:`optimizer.dwell.assumptions`).
     """
-    inputs = plan_inputs(scenario, dwell)
-    quiet_solver_banner()
-    result = plan(inputs, options if options is not None else SolveOptions())
+    dwell, inputs, result = plan_checked(scenario, dwell, options)
     tables = dict(plan_tables(result, inputs))
     planned = sorted({o.product for o in inputs.orders})
     tables["rules"] = rules_table(scenario, planned)
@@ -118,6 +118,41 @@ def solve_run(
         result,
         tables,
     )
+
+
+def plan_checked(
+    scenario: Scenario,
+    dwell: pd.DataFrame,
+    options: SolveOptions | None = None,
+    solve: Callable[[PlanInputs, SolveOptions], PlanResult] = plan,
+) -> tuple[pd.DataFrame, PlanInputs, PlanResult]:
+    """Plan, then re-verify every dwell cell the plan uses against the physics.
+
+    The cells behind the plan's tunnel runs and oven batches are computed
+    again unless this process computed them from the physics itself
+    (:func:`optimizer.dwell.table.verify_rows`); when a cached value differs,
+    the table is corrected (with a notice) and the plan made again, until
+    the plan uses only the physics' values. ``solve``: the planner
+    (:func:`optimizer.planning.solve.plan`, or ``plan_buckets`` for studies).
+
+    Returns
+    -------
+    (pandas.DataFrame, PlanInputs, PlanResult)
+        The dwell table the plan was made from, the planner inputs and the plan.
+    """
+    quiet_solver_banner()
+    while True:
+        inputs = plan_inputs(scenario, dwell)
+        result = solve(inputs, options if options is not None else SolveOptions())
+        routes = [
+            (r.product, r.oven, r.oven_setting, r.tunnel, r.tunnel_setting, r.loading)
+            for r in result.runs
+        ]
+        cooks = [(c.product, b.oven, b.setting) for b in result.batches for c in b.contents]
+        corrected = verify_rows(scenario, dwell, routes, cooks)
+        if corrected is None:
+            return dwell, inputs, result
+        dwell = corrected
 
 
 def dwell_used_table(dwell: pd.DataFrame, result: PlanResult) -> pd.DataFrame:

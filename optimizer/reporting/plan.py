@@ -83,14 +83,22 @@ def plan_schedule(run: PlanRun) -> Schedule | None:
 
 
 def write_plan_outputs(
-    run: PlanRun, target: Path, argv_text: str, *, schedule: Schedule | None = None
+    run: PlanRun,
+    target: Path,
+    argv_text: str,
+    named_as: Path | None = None,
+    *,
+    schedule: Schedule | None = None,
 ) -> list[Path]:
     """Write the plan's tables (CSV + XLSX), its JSON summary and its HTML report.
 
-    With a timed schedule (``schedule``, else the one the plan carries) also
-    ``schedule.csv`` (and its sheet in ``plan.xlsx``), ``unplaced.csv`` when
-    anything was left out, the schedule in ``plan.json`` and
-    ``floor_sheet.html``; the report's timelines are then the schedule's.
+    ``named_as``: the folder the files will be in once a staging ``target``
+    is swapped in (:func:`optimizer.reporting.outset.output_set`); plan.json
+    lists them there. With a timed schedule (``schedule``, else the one the
+    plan carries) also ``schedule.csv`` (and its sheet in ``plan.xlsx``),
+    ``unplaced.csv`` when anything was left out, the schedule in
+    ``plan.json`` and ``floor_sheet.html``; the report's timelines are then
+    the schedule's.
     """
     protect = [run.path]
     schedule = schedule if schedule is not None else plan_schedule(run)
@@ -124,6 +132,6 @@ def write_plan_outputs(
         written.append(
             export.atomic_write_text(target / "floor_sheet.html", sheet, protect=protect)
         )
-    data = plan_json(run, written, schedule)
+    data = plan_json(run, [(named_as or target) / p.name for p in written], schedule)
     written.append(export.write_json(target / "plan.json", data, protect=protect))
     return written

@@ -54,7 +54,7 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from optimizer.scenario.overrides import Change, OverrideError, load_raw
-from optimizer.scenario.units import KINDS, UnitParseError, parse_quantity
+from optimizer.scenario.units import KINDS, UnitParseError, parse_quantity, shown, shown_key
 
 __all__ = [
     "BlockGeometry",
@@ -154,10 +154,14 @@ def _quantity(
         elif kind == "fraction":
             low = f"[{_fmt(ge)}" if ge is not None else f"({_fmt(gt if gt is not None else 0)}"
             high = f"{_fmt(le)}]" if le is not None else f"{_fmt(lt if lt is not None else 1)})"
-            msg = f"must be in {low}, {high} (or a percentage like '65 %'), got {value!r}"
+            msg = f"must be in {low}, {high} (or a percentage like '65 %'), got {shown(value)}"
         else:
             bound, op = failed[0]
-            got = f"{value!r} = {_fmt(x)}{unit}" if isinstance(value, str) else f"{_fmt(x)}{unit}"
+            got = (
+                f"{shown(value)} = {_fmt(x)}{unit}"
+                if isinstance(value, str)
+                else f"{_fmt(x)}{unit}"
+            )
             msg = f"must be {op} {_fmt(bound)}{unit}, got {got}"
         raise PydanticCustomError("quantity", "{msg}", {"msg": msg})
 
@@ -179,18 +183,74 @@ def _quantity(
     return Annotated[float, BeforeValidator(read), WithJsonSchema(schema)]
 
 
-def _name_check(value: Any) -> str:
+MAX_NAME_CHARS = 200
+"""Longest name accepted (products, machines, settings, shifts, rule sets) [characters]."""
+
+_TEXT_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+"""Control characters refused in free text (tab, line feed and carriage return pass)."""
+
+_NAME_CONTROL = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+"""Control characters refused in names (names are one line of text)."""
+
+
+def _control_problem(value: str, pattern: re.Pattern[str]) -> str | None:
+    found = pattern.search(value)
+    if found is None:
+        return None
+    return (
+        f"must not contain control characters, got {found.group()!r} at character "
+        f"{found.start() + 1} of {shown(value)}"
+    )
+
+
+def name_problem(value: Any) -> str | None:
+    """Why ``value`` is not a name (non-empty one-line text, at most :data:`MAX_NAME_CHARS`)."""
     if not isinstance(value, str) or not value.strip():
-        raise PydanticCustomError(
-            "name", "{msg}", {"msg": f"must be a non-empty name (text), got {value!r}"}
-        )
+        return f"must be a non-empty name (text), got {shown(value)}"
+    text = value.strip()
+    if len(text) > MAX_NAME_CHARS:
+        return f"must be a name of at most {MAX_NAME_CHARS} characters, got {len(text):,}"
+    return _control_problem(text, _NAME_CONTROL)
+
+
+def text_problem(value: Any) -> str | None:
+    """Why ``value`` is not free text (text without control characters but tab and newlines)."""
+    if not isinstance(value, str):
+        return f"expected text, got {shown(value)}"
+    return _control_problem(value, _TEXT_CONTROL)
+
+
+def _name_check(value: Any) -> str:
+    problem = name_problem(value)
+    if problem is not None:
+        raise PydanticCustomError("name", "{msg}", {"msg": problem})
     return value.strip()
+
+
+def _text_check(value: Any) -> str:
+    problem = text_problem(value)
+    if problem is not None:
+        raise PydanticCustomError("name", "{msg}", {"msg": problem})
+    return value
 
 
 Name = Annotated[
     str,
     BeforeValidator(_name_check),
-    WithJsonSchema({"type": "string", "minLength": 1, "description": "A name (non-empty text)"}),
+    WithJsonSchema(
+        {
+            "type": "string",
+            "minLength": 1,
+            "maxLength": MAX_NAME_CHARS,
+            "description": "A name (non-empty text on one line)",
+        }
+    ),
+]
+
+Text = Annotated[
+    str,
+    BeforeValidator(_text_check),
+    WithJsonSchema({"type": "string", "description": "Free text (no control characters)"}),
 ]
 
 Temperature = _quantity("temperature", gt=-273.15)
@@ -220,12 +280,12 @@ def _plain_number(*, gt: float | None = None, ge: float | None = None) -> Any:
     def read(value: Any) -> float:
         if isinstance(value, bool) or not isinstance(value, int | float):
             raise PydanticCustomError(
-                "number", "{msg}", {"msg": f"expected a plain number, got {value!r}"}
+                "number", "{msg}", {"msg": f"expected a plain number, got {shown(value)}"}
             )
         x = float(value)
         if not math.isfinite(x):
             raise PydanticCustomError(
-                "number", "{msg}", {"msg": f"must be a finite number, got {value!r}"}
+                "number", "{msg}", {"msg": f"must be a finite number, got {shown(value)}"}
             )
         if gt is not None and not x > gt:
             raise PydanticCustomError(
@@ -240,15 +300,35 @@ def _plain_number(*, gt: float | None = None, ge: float | None = None) -> Any:
     return Annotated[float, BeforeValidator(read)]
 
 
-def _whole_number(ge: int) -> Any:
+def _whole_number(ge: int, le: int) -> Any:
     def read(value: Any) -> int:
-        if isinstance(value, bool) or not isinstance(value, int) or value < ge:
+        if isinstance(value, bool) or not isinstance(value, int) or not ge <= value <= le:
             raise PydanticCustomError(
-                "count", "{msg}", {"msg": f"must be a whole number >= {ge}, got {value!r}"}
+                "count",
+                "{msg}",
+                {"msg": f"must be a whole number from {ge} to {le:,}, got {shown(value)}"},
             )
         return int(value)
 
-    return Annotated[int, BeforeValidator(read), WithJsonSchema({"type": "integer", "minimum": ge})]
+    schema = {"type": "integer", "minimum": ge, "maximum": le}
+    return Annotated[int, BeforeValidator(read), WithJsonSchema(schema)]
+
+
+MAX_TRAYS = 10_000
+"""Most tray or rack positions an oven batch may have [-]."""
+
+MAX_ITEMS: dict[str, int] = {
+    "ovens": 100,
+    "tunnels": 50,
+    "products": 1000,
+    "shifts": 1000,
+    "orders": 10_000,
+    "rules": 1000,
+}
+"""Most entries of each scenario section (far above any plant; bounds the work)."""
+
+MAX_PARTS = 100
+"""Most entries of a list inside an item (settings, zones, loadings, stops, steps)."""
 
 
 class _Model(BaseModel):
@@ -343,12 +423,16 @@ class Oven(_Model):
     """A batch oven (rack oven, cook chamber or smokehouse)."""
 
     name: Name = Field(description="Oven name, unique among ovens and tunnels.")
-    trays: _whole_number(1) = Field(description="Tray or rack positions per batch [-].")
+    trays: _whole_number(1, MAX_TRAYS) = Field(
+        description=f"Tray or rack positions per batch [-], 1 to {MAX_TRAYS:,}."
+    )
     capacity: PositiveMass = Field(description="Most product per batch [kg].")
     load_time: Minutes = Field(0.0, description="Minutes to load one batch [min].")
     unload_time: Minutes = Field(0.0, description="Minutes to unload one batch [min].")
     changeover: Minutes = Field(0.0, description="Minutes to change the air setting [min].")
-    settings: list[OvenSetting] = Field(min_length=1, description="Air settings, at least one.")
+    settings: list[OvenSetting] = Field(
+        min_length=1, max_length=MAX_PARTS, description="Air settings, at least one."
+    )
 
 
 class TransferStage(_AirMixin):
@@ -384,7 +468,9 @@ class TunnelSetting(_Model):
     """One air setting of a tunnel: the zones the belt carries product through."""
 
     name: Name = Field(description="Setting name, unique within the tunnel.")
-    zones: list[TunnelZone] = Field(min_length=1, description="Zones from belt entry to exit.")
+    zones: list[TunnelZone] = Field(
+        min_length=1, max_length=MAX_PARTS, description="Zones from belt entry to exit."
+    )
 
     @property
     def coldest_temperature(self) -> float:
@@ -419,7 +505,9 @@ class Tunnel(_Model):
     belt_width: Length = Field(description="Usable belt width [m].")
     belt_speed_min: BeltSpeed = Field(description="Slowest belt speed [m/min].")
     belt_speed_max: PositiveBeltSpeed = Field(description="Fastest belt speed [m/min].")
-    fed_by: list[Name] = Field(min_length=1, description="Names of the ovens that feed it.")
+    fed_by: list[Name] = Field(
+        min_length=1, max_length=MAX_ITEMS["ovens"], description="Names of the ovens that feed it."
+    )
     hot_hold_max: PositiveMinutes | None = Field(
         None,
         description="Longest a cooked batch may wait between oven exit and belt entry [min].",
@@ -432,8 +520,12 @@ class Tunnel(_Model):
         ),
     )
     changeover: Minutes = Field(0.0, description="Minutes lost changing to another run [min].")
-    loadings: list[LoadingOption] = Field(min_length=1, description="Belt loading options.")
-    settings: list[TunnelSetting] = Field(min_length=1, description="Air settings.")
+    loadings: list[LoadingOption] = Field(
+        min_length=1, max_length=MAX_PARTS, description="Belt loading options."
+    )
+    settings: list[TunnelSetting] = Field(
+        min_length=1, max_length=MAX_PARTS, description="Air settings."
+    )
 
     def zone_fractions(self, setting: TunnelSetting) -> list[float]:
         """Length share of each zone of ``setting`` [-] (lengths divided by the tunnel length)."""
@@ -465,7 +557,7 @@ class LethalitySpec(_Model):
 
 class _RuleBase(_Model):
     source: Name = Field(description="Published source of the rule (code, section, edition).")
-    note: str = Field("", description="Free text shown in reports.")
+    note: Text = Field("", description="Free text shown in reports.")
 
 
 class CookRuleSpec(_RuleBase):
@@ -480,7 +572,9 @@ class CookRuleSpec(_RuleBase):
     )
     hold: Minutes = Field(0.0, description="Hold at core_temperature [min].")
     alternatives: list[TemperatureHold] = Field(
-        default_factory=list, description="Time–temperature alternatives; any one suffices."
+        default_factory=list,
+        max_length=MAX_PARTS,
+        description="Time–temperature alternatives; any one suffices.",
     )
     lethality: LethalitySpec | None = Field(None, description="Log-reduction requirement.")
 
@@ -534,7 +628,9 @@ class ChillRuleSpec(_RuleBase):
     """A chill rule: cooling steps and/or a core temperature at tunnel exit."""
 
     kind: Literal["chill"] = "chill"
-    steps: list[CoolingStep] = Field(default_factory=list, description="Cooling steps.")
+    steps: list[CoolingStep] = Field(
+        default_factory=list, max_length=MAX_PARTS, description="Cooling steps."
+    )
     exit_core_temperature: Temperature | None = Field(
         None,
         description="Core temperature at tunnel exit [°C]; default the last step's 'to'.",
@@ -863,7 +959,11 @@ _SHAPES = {
 def _shape_tag(value: Any) -> str | None:
     if isinstance(value, _GeometryBase):
         return f"<{value.shape}>"
-    if isinstance(value, Mapping) and value.get("shape") in _SHAPES:
+    if (
+        isinstance(value, Mapping)
+        and isinstance(value.get("shape"), str)
+        and value["shape"] in _SHAPES
+    ):
         return f"<{value['shape']}>"
     return None
 
@@ -961,7 +1061,7 @@ class PlannedStop(_Model):
 
     machine: Name | None = Field(None, description="Oven or tunnel name; omit for every machine.")
     minutes: Minutes = Field(description="Minutes lost [min].")
-    reason: str = Field("", description="e.g. cleaning, maintenance.")
+    reason: Text = Field("", description="e.g. cleaning, maintenance.")
     start: Minutes | None = Field(
         None,
         description=("Start from the start of the shift [min]; omit to let the schedule place it."),
@@ -974,10 +1074,14 @@ class Shift(_Model):
     name: Name = Field(description="Shift name, unique.")
     minutes: Minutes = Field(description="Minutes available per machine [min].")
     machines: dict[str, Minutes] = Field(
-        default_factory=dict, description="Per-machine minutes overriding 'minutes' [min]."
+        default_factory=dict,
+        max_length=MAX_ITEMS["ovens"] + MAX_ITEMS["tunnels"],
+        description="Per-machine minutes overriding 'minutes' [min].",
     )
     stops: list[PlannedStop] = Field(
-        default_factory=list, description="Cleaning and planned stops taken off the minutes."
+        default_factory=list,
+        max_length=MAX_PARTS,
+        description="Cleaning and planned stops taken off the minutes.",
     )
 
     def available(self, machine: str) -> float:
@@ -1067,15 +1171,17 @@ class Scenario(_Model):
     """A validated plant scenario (use :func:`load_scenario` to read one from a file)."""
 
     plant: Name = Field(description="Plant name shown in reports.")
-    description: str = Field("", description="Free text.")
-    currency: str = Field("EUR", description="Currency of value_per_kg.")
-    ovens: list[Oven] = Field(min_length=1)
-    tunnels: list[Tunnel] = Field(min_length=1)
-    products: list[Product] = Field(min_length=1)
-    shifts: list[Shift] = Field(min_length=1)
-    orders: list[Order] = Field(default_factory=list)
+    description: Text = Field("", description="Free text.")
+    currency: Text = Field("EUR", description="Currency of value_per_kg.")
+    ovens: list[Oven] = Field(min_length=1, max_length=MAX_ITEMS["ovens"])
+    tunnels: list[Tunnel] = Field(min_length=1, max_length=MAX_ITEMS["tunnels"])
+    products: list[Product] = Field(min_length=1, max_length=MAX_ITEMS["products"])
+    shifts: list[Shift] = Field(min_length=1, max_length=MAX_ITEMS["shifts"])
+    orders: list[Order] = Field(default_factory=list, max_length=MAX_ITEMS["orders"])
     rules: dict[str, RuleSpec] = Field(
-        default_factory=dict, description="Rule sets of this plant, by name."
+        default_factory=dict,
+        max_length=MAX_ITEMS["rules"],
+        description="Rule sets of this plant, by name.",
     )
     objective: Objective = Field(default_factory=Objective)
     safety_margin: SafetyMargin = Field(default_factory=SafetyMargin)
@@ -1164,9 +1270,17 @@ knows no physics: the dwell layer supplies this check
 """
 
 
+_QUOTED_NAMES = 12
+"""Most names a message lists ("known: ..."); the rest are counted."""
+
+
 def _quote_list(names: Iterable[str]) -> str:
     names = list(names)
-    return ", ".join(repr(n) for n in names) if names else "none"
+    if not names:
+        return "none"
+    text = ", ".join(shown(n) for n in names[:_QUOTED_NAMES])
+    more = len(names) - _QUOTED_NAMES
+    return text + (f" and {more:,} more" if more > 0 else "")
 
 
 def _cross_field_problems(
@@ -1202,7 +1316,7 @@ def _cross_field_problems(
         for i, x in items:
             if x.name in seen:
                 out.append(
-                    f"{section}[{i}].name: {x.name!r} is already used by "
+                    f"{section}[{i}].name: {shown(x.name)} is already used by "
                     f"{section}[{seen[x.name]}]; names must be unique"
                 )
             else:
@@ -1211,7 +1325,7 @@ def _cross_field_problems(
     for i, x in shifts:
         if x.name in seen:
             out.append(
-                f"shifts[{i}].name: {x.name!r} is already used by shifts[{seen[x.name]}]; "
+                f"shifts[{i}].name: {shown(x.name)} is already used by shifts[{seen[x.name]}]; "
                 "names must be unique"
             )
         seen.setdefault(x.name, i)
@@ -1219,8 +1333,8 @@ def _cross_field_problems(
     for i, t in tunnels:
         if t.name in oven_names:
             out.append(
-                f"tunnels[{i}].name: {t.name!r} is also the name of ovens[{oven_names[t.name]}]; "
-                "oven and tunnel names must differ"
+                f"tunnels[{i}].name: {shown(t.name)} is also the name of "
+                f"ovens[{oven_names[t.name]}]; oven and tunnel names must differ"
             )
     for i, o in ovens:
         _unique(out, f"ovens[{i}].settings", [s.name for s in o.settings])
@@ -1239,7 +1353,7 @@ def _cross_field_problems(
         for j, oven in enumerate(t.fed_by):
             if unknown(oven, all_ovens):
                 out.append(
-                    f"tunnels[{i}].fed_by[{j}]: {oven!r} is not an oven; known: "
+                    f"tunnels[{i}].fed_by[{j}]: {shown(oven)} is not an oven; known: "
                     f"{_quote_list(sorted(all_ovens - {_ANY}))}"
                 )
         for k, s in enumerate(t.settings):
@@ -1260,7 +1374,9 @@ def _cross_field_problems(
     if tunnels and len(tunnels) == len(parts.get("tunnels", [])) and not raw_names.get("tunnels"):
         for i, o in ovens:
             if o.name not in fed:
-                out.append(f"ovens[{i}]: {o.name!r} feeds no tunnel; list it in a tunnel's fed_by")
+                out.append(
+                    f"ovens[{i}]: {shown(o.name)} feeds no tunnel; list it in a tunnel's fed_by"
+                )
 
     for i, t in tunnels:
         for k, st in enumerate(t.settings):
@@ -1283,14 +1399,16 @@ def _cross_field_problems(
     for name in rules:
         if name in shipped:
             out.append(
-                f"rules.{name}: this name is a shipped rule set; choose another name for a "
-                "plant rule"
+                f"rules.{shown_key(name)}: this name is a shipped rule set; choose another "
+                "name for a plant rule"
             )
     oven_settings = [(i, k, s) for i, o in ovens for k, s in enumerate(o.settings)]
     tunnel_settings = [(i, k, s) for i, t in tunnels for k, s in enumerate(t.settings)]
     for i, p in products:
         failed = raw_names.get("rules", set())
         cook = None
+        if _ANY in failed:
+            continue
         if not (isinstance(p.cook_rule, str) and p.cook_rule in failed):
             cook = _resolve(
                 out, f"products[{i}].cook_rule", p.cook_rule, library, "cook", cook_names
@@ -1329,19 +1447,19 @@ def _cross_field_problems(
         for m in s.machines:
             if unknown(m, machines):
                 out.append(
-                    f"shifts[{i}].machines.{m}: {m!r} is not an oven or tunnel; known: "
+                    f"shifts[{i}].machines.{m}: {shown(m)} is not an oven or tunnel; known: "
                     f"{_quote_list(sorted(machines - {_ANY}))}"
                 )
         for j, stop in enumerate(s.stops):
             if stop.machine is not None and unknown(stop.machine, machines):
                 out.append(
-                    f"shifts[{i}].stops[{j}].machine: {stop.machine!r} is not an oven or "
+                    f"shifts[{i}].stops[{j}].machine: {shown(stop.machine)} is not an oven or "
                     f"tunnel; known: {_quote_list(sorted(machines))}"
                 )
         for m in sorted(machines - {_ANY}):
             if s.available(m) < 0:
                 out.append(
-                    f"shifts[{i}].stops: stops of {m!r} ({_fmt(s.minutes - s.available(m))} "
+                    f"shifts[{i}].stops: stops of {shown(m)} ({_fmt(s.minutes - s.available(m))} "
                     f"min) exceed its available minutes"
                 )
                 break
@@ -1350,10 +1468,18 @@ def _cross_field_problems(
     # orders
     product_names = names("products", products)
     shift_names = names("shifts", shifts)
+    first_order: dict[tuple[str, str | None], int] = {}
     for i, o in orders:
+        j = first_order.setdefault((o.product, o.due_shift), i)
+        if j != i:
+            due = f"due_shift {shown(o.due_shift)}" if o.due_shift else "no due_shift"
+            out.append(
+                f"orders[{i}]: the same product {shown(o.product)} with {due} as orders[{j}]; "
+                "give one order per product and due shift (merge their min_kg and max_kg)"
+            )
         if unknown(o.product, product_names):
             out.append(
-                f"orders[{i}].product: {o.product!r} is not a product; known: "
+                f"orders[{i}].product: {shown(o.product)} is not a product; known: "
                 f"{_quote_list(sorted(product_names - {_ANY}))}"
             )
         if o.max_kg is not None and o.min_kg > o.max_kg:
@@ -1363,7 +1489,7 @@ def _cross_field_problems(
             )
         if o.due_shift is not None and unknown(o.due_shift, shift_names):
             out.append(
-                f"orders[{i}].due_shift: {o.due_shift!r} is not a shift; known: "
+                f"orders[{i}].due_shift: {shown(o.due_shift)} is not a shift; known: "
                 f"{_quote_list(s.name for _, s in shifts)}"
             )
     if objective is not None and objective.kind == "most_value":
@@ -1378,7 +1504,7 @@ def _unique(out: list[str], where: str, names: list[str]) -> None:
     for j, n in enumerate(names):
         if n in seen:
             out.append(
-                f"{where}[{j}].name: {n!r} is already used by {where}[{seen[n]}]; "
+                f"{where}[{j}].name: {shown(n)} is already used by {where}[{seen[n]}]; "
                 "names must be unique"
             )
         seen.setdefault(n, j)
@@ -1417,15 +1543,16 @@ def _resolve(
     rule = library.get(ref)
     if rule is None:
         close = difflib.get_close_matches(ref, accepted, n=1, cutoff=0.5)
-        hint = f" (did you mean {close[0]!r}?)" if close else ""
+        hint = f" (did you mean {shown(close[0])}?)" if close else ""
         out.append(
-            f"{where}: {ref!r} is not a known {kind} rule set{hint}; known: {_quote_list(accepted)}"
+            f"{where}: {shown(ref)} is not a known {kind} rule set{hint}; "
+            f"known: {_quote_list(accepted)}"
         )
         return None
     wrong = isinstance(rule, CookRuleSpec) != (kind == "cook")
     if wrong:
         out.append(
-            f"{where}: {ref!r} is a {rule.kind} rule set, expected a {kind} rule set; "
+            f"{where}: {shown(ref)} is a {rule.kind} rule set, expected a {kind} rule set; "
             f"known: {_quote_list(accepted)}"
         )
         return None
@@ -1443,7 +1570,7 @@ def _loc_path(loc: Sequence[Any]) -> str:
         elif isinstance(part, str) and part.startswith("<") and part.endswith(">"):
             continue  # union tag, not a field
         else:
-            out += ("." if out else "") + str(part)
+            out += ("." if out else "") + shown_key(part)
     return out
 
 
@@ -1510,9 +1637,9 @@ def _error_line(root: type[BaseModel], err: Mapping[str, Any], prefix: str = "")
         if kind == "shape":
             # keep the path at the geometry; say what was given
             shape = given.get("shape") if isinstance(given, Mapping) else given
-            msg = f"{err.get('msg')}, got {shape!r}"
+            msg = f"{err.get('msg')}, got {shown(shape)}"
         if kind == "rule":
-            msg = f"{err.get('msg')}, got {given!r}"
+            msg = f"{err.get('msg')}, got {shown(given)}"
         head = _FIELD_HEAD.match(msg)
         if head is not None:
             # "field: message" raised by a model check: move the field into the path
@@ -1539,19 +1666,21 @@ def _error_line(root: type[BaseModel], err: Mapping[str, Any], prefix: str = "")
             hint = f" (did you mean {close[0]!r}?)" if close else ""
         return f"{path}: unknown field{hint}{accepted}"
     if kind == "literal_error":
-        return f"{path}: must be one of {ctx.get('expected', '')}, got {given!r}"
+        return f"{path}: must be one of {ctx.get('expected', '')}, got {shown(given)}"
     if kind in ("list_type",):
-        return f"{path}: expected a list, got {given!r}"
+        return f"{path}: expected a list, got {shown(given)}"
     if kind in ("model_type", "dict_type", "model_attributes_type"):
-        return f"{path}: expected a mapping of fields, got {given!r}"
+        return f"{path}: expected a mapping of fields, got {shown(given)}"
     if kind in ("string_type",):
-        return f"{path}: expected text, got {given!r}"
+        return f"{path}: expected text, got {shown(given)}"
+    if kind == "too_long":
+        return f"{path}: at most {ctx.get('max_length')} entries, got {ctx.get('actual_length')}"
     if kind == "too_short":
         return f"{path}: needs at least {ctx.get('min_length', 1)} entry, got none"
     if kind == "value_error":
         msg = str(err.get("msg", "")).removeprefix("Value error, ")
         return f"{path}: {msg}"
-    return f"{path}: {err.get('msg', 'invalid')}, got {given!r}"
+    return f"{path}: {err.get('msg', 'invalid')}, got {shown(given)}"
 
 
 def _errors_of(root: type[BaseModel], exc: ValidationError, prefix: str = "") -> list[str]:
@@ -1631,6 +1760,10 @@ def scenario_from_dict(
             continue
         if not raw and fields[section].is_required():
             problems.append(f"{section}: needs at least 1 entry, got none")
+        if len(raw) > MAX_ITEMS[section]:
+            problems.append(f"{section}: at most {MAX_ITEMS[section]:,} entries, got {len(raw):,}")
+            raw_names[section] = {_ANY}
+            continue
         good: list[tuple[int, Any]] = []
         for i, item in enumerate(raw):
             try:
@@ -1647,16 +1780,25 @@ def scenario_from_dict(
     rules: dict[str, Any] = {}
     raw_rules = data.get("rules", {}) or {}
     if not isinstance(raw_rules, Mapping):
-        problems.append(f"rules: expected a mapping of rule set name to rule, got {raw_rules!r}")
+        problems.append(
+            f"rules: expected a mapping of rule set name to rule, got {shown(raw_rules)}"
+        )
+    elif len(raw_rules) > MAX_ITEMS["rules"]:
+        problems.append(f"rules: at most {MAX_ITEMS['rules']:,} entries, got {len(raw_rules):,}")
+        raw_names["rules"] = {_ANY}
     else:
         adapter = TypeAdapter(RuleSpec)
         for name, spec in raw_rules.items():
+            problem = name_problem(name)
+            if problem is not None:
+                problems.append(f"rules.{shown_key(name)}: the rule set name {problem}")
+                continue
             try:
                 rules[str(name)] = adapter.validate_python(spec)
             except ValidationError as exc:
                 raw_names.setdefault("rules", set()).add(str(name))
                 for err in exc.errors(include_url=False):
-                    problems.append(_error_line(CookRuleSpec, err, f"rules.{name}"))
+                    problems.append(_error_line(CookRuleSpec, err, f"rules.{shown_key(name)}"))
 
     objective: Objective | None = None
     margin = 0.0
@@ -1671,12 +1813,11 @@ def scenario_from_dict(
                 objective = value
             elif isinstance(value, SafetyMargin):
                 margin = value.core_temperature
-    plant = data.get("plant")
-    if "plant" in data and (not isinstance(plant, str) or not plant.strip()):
-        problems.append(f"plant: must be a non-empty name (text), got {plant!r}")
+    if "plant" in data and name_problem(data["plant"]) is not None:
+        problems.append(f"plant: {name_problem(data['plant'])}")
     for key in ("description", "currency"):
-        if key in data and not isinstance(data[key], str):
-            problems.append(f"{key}: expected text, got {data[key]!r}")
+        if key in data and text_problem(data[key]) is not None:
+            problems.append(f"{key}: {text_problem(data[key])}")
 
     problems.extend(_cross_field_problems(parts, rules, objective, raw_names, margin, physics))
     # a product that failed its own checks still gets its rule names checked, so one

@@ -42,8 +42,18 @@ from pathlib import Path
 from typing import Any
 
 import yaml
+from yaml.composer import Composer
+from yaml.constructor import SafeConstructor
 from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
-from yaml.reader import ReaderError
+from yaml.parser import Parser
+from yaml.reader import Reader, ReaderError
+from yaml.resolver import Resolver
+from yaml.scanner import Scanner
+
+try:  # libyaml parses about seven times faster than the pure-Python parser
+    from yaml._yaml import CParser as _CParser
+except ImportError:  # pragma: no cover - PyYAML built without libyaml
+    _CParser = None
 
 from optimizer.scenario.units import shown, shown_key
 
@@ -71,12 +81,10 @@ class _DocumentTooLarge(yaml.YAMLError):
         self.line = line
 
 
-class _BoundedLoader(yaml.SafeLoader):
-    """Safe YAML loader that refuses nesting deeper than :data:`MAX_NESTING` as it composes."""
+class _BoundedComposer(Composer):
+    """Composes nodes from parser events, refusing nesting deeper than :data:`MAX_NESTING`."""
 
-    def __init__(self, stream: str) -> None:
-        super().__init__(stream)
-        self._depth = 0
+    _depth = 0
 
     def compose_node(self, parent: Node | None, index: Any) -> Node | None:
         self._depth += 1
@@ -92,6 +100,31 @@ class _BoundedLoader(yaml.SafeLoader):
             self._depth -= 1
 
 
+if _CParser is not None:
+
+    class _BoundedLoader(_BoundedComposer, _CParser, SafeConstructor, Resolver):
+        """Safe loader: libyaml's parser (events), composed here with the nesting bound."""
+
+        def __init__(self, stream: str) -> None:
+            _CParser.__init__(self, stream)
+            _BoundedComposer.__init__(self)
+            SafeConstructor.__init__(self)
+            Resolver.__init__(self)
+
+else:  # pragma: no cover - PyYAML built without libyaml
+
+    class _BoundedLoader(_BoundedComposer, Reader, Scanner, Parser, SafeConstructor, Resolver):  # type: ignore[no-redef]
+        """Safe loader in pure Python, with the nesting bound."""
+
+        def __init__(self, stream: str) -> None:
+            Reader.__init__(self, stream)
+            Scanner.__init__(self)
+            Parser.__init__(self)
+            _BoundedComposer.__init__(self)
+            SafeConstructor.__init__(self)
+            Resolver.__init__(self)
+
+
 def _construct_int(loader: yaml.SafeLoader, node: ScalarNode) -> int:
     digits = sum(ch.isdigit() for ch in node.value)
     if digits > 1000:  # Python refuses to read integers of more than 4300 digits
@@ -99,7 +132,7 @@ def _construct_int(loader: yaml.SafeLoader, node: ScalarNode) -> int:
             f"a number of {digits} digits; accepted: numbers up to about 1e308",
             node.start_mark.line + 1,
         )
-    return yaml.SafeLoader.construct_yaml_int(loader, node)
+    return SafeConstructor.construct_yaml_int(loader, node)
 
 
 _BoundedLoader.add_constructor("tag:yaml.org,2002:int", _construct_int)
@@ -148,6 +181,16 @@ def _expanded(node: Node, sizes: dict[int, tuple[int, int]], open_: set[int]) ->
     return result
 
 
+def _not_allowed(exc: ReaderError, text: str, where: str) -> OverrideError:
+    """The error for a character YAML does not allow (NUL, ...), with its line."""
+    if _CParser is not None:  # libyaml counts the position in UTF-8 bytes
+        line = text.encode("utf-8", "surrogatepass")[: exc.position].count(b"\n") + 1
+    else:
+        line = text[: exc.position].count("\n") + 1
+    char = chr(exc.character) if isinstance(exc.character, int) else exc.character
+    return OverrideError(f"{where}: line {line}: character {char!r} is not allowed in YAML text")
+
+
 def parse_yaml(text: str, where: str) -> Any:
     """Parse one YAML document with bounded nesting and expanded size.
 
@@ -168,10 +211,7 @@ def parse_yaml(text: str, where: str) -> Any:
     try:
         loader = _BoundedLoader(text)
     except ReaderError as exc:  # a character YAML does not allow (NUL, ...)
-        line = text[: exc.position].count("\n") + 1
-        raise OverrideError(
-            f"{where}: line {line}: character {exc.character!r} is not allowed in YAML text"
-        ) from None
+        raise _not_allowed(exc, text, where) from None
     try:
         node = loader.get_single_node()
         if node is None:
@@ -181,6 +221,8 @@ def parse_yaml(text: str, where: str) -> Any:
     except _DocumentTooLarge as exc:
         line = f"line {exc.line}: " if exc.line is not None else ""
         raise OverrideError(f"{where}: {line}{exc.message}") from None
+    except ReaderError as exc:
+        raise _not_allowed(exc, text, where) from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         line = f"line {mark.line + 1}: " if mark is not None else ""

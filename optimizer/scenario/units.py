@@ -182,6 +182,25 @@ def _accepted(field: str, kind: UnitKind, given: Any) -> UnitParseError:
     )
 
 
+@lru_cache(maxsize=512)
+def _parsed_unit(text: str, difference: bool) -> pint.Unit | None:
+    """The pint unit ``text`` names (as a difference when ``difference``); None when none.
+
+    Cached: a scenario names a handful of units many times over.
+    """
+    ureg = _registry()
+    try:
+        unit = ureg.parse_units(text)
+    except Exception:  # pint raises a variety of parser errors on garbage
+        return None
+    if difference:
+        # A difference written in degC/degF means a difference of that size.
+        names = [str(name) for name in unit._units]
+        if len(names) == 1 and names[0] in _OFFSET_TO_DELTA:
+            unit = ureg.parse_units(_OFFSET_TO_DELTA[names[0]])
+    return unit
+
+
 def parse_quantity(value: Any, kind: str, field: str = "value") -> float:
     """Read a scenario value as a float in the documented unit of ``kind``.
 
@@ -235,17 +254,9 @@ def parse_quantity(value: Any, kind: str, field: str = "value") -> float:
     if not unit_text:
         return number
     ureg = _registry()
-    try:
-        unit = ureg.parse_units(unit_text)
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, ValueError):
-        raise _accepted(field, spec, value) from None
-    except Exception:  # pint raises a variety of parser errors on garbage
-        raise _accepted(field, spec, value) from None
-    if kind == "temperature_difference":
-        # A difference written in degC/degF means a difference of that size.
-        names = [str(name) for name in unit._units]
-        if len(names) == 1 and names[0] in _OFFSET_TO_DELTA:
-            unit = ureg.parse_units(_OFFSET_TO_DELTA[names[0]])
+    unit = _parsed_unit(unit_text, kind == "temperature_difference")
+    if unit is None:
+        raise _accepted(field, spec, value)
     try:
         quantity = ureg.Quantity(number, unit).to(spec.unit)
     except pint.errors.DimensionalityError:

@@ -24,6 +24,7 @@ from multiprocessing import get_context
 from pathlib import Path
 from typing import Any
 
+from optimizer.dwell.workers import pool_initializer
 from optimizer.scenario.overrides import Change
 
 PointFunc = Callable[["SweepPoint"], dict[str, Any]]
@@ -131,9 +132,17 @@ def new_pool(workers: int | None = None) -> ProcessPoolExecutor:
     """A local process pool as :func:`run_points` makes it (spawned processes).
 
     Pass it to several :func:`run_points` calls as ``executor`` to start the
-    worker processes once; shut it down when finished.
+    worker processes once; shut it down when finished. The workers end when
+    this process ends (:func:`optimizer.dwell.workers.die_with_parent`), even
+    when it is killed.
     """
-    return ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn"))
+    initializer, initargs = pool_initializer()
+    return ProcessPoolExecutor(
+        max_workers=workers,
+        mp_context=get_context("spawn"),
+        initializer=initializer,
+        initargs=initargs,
+    )
 
 
 def run_points(

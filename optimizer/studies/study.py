@@ -119,7 +119,6 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
-from optimizer.planning.highs import quiet_solver_banner
 from optimizer.scenario.overrides import Change, OverrideError, apply_changes, load_raw
 from optimizer.scenario.units import UnitParseError, parse_quantity
 from optimizer.studies.execute import ExecMode, SweepPoint, done_indices, new_pool, run_points
@@ -1316,13 +1315,14 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
     from optimizer.dwell.table import build_dwell_table
     from optimizer.planning.adapter import plan_inputs
     from optimizer.planning.inputs import SolveOptions
+    from optimizer.planning.run import plan_checked
     from optimizer.planning.solve import plan_buckets
 
     head = {"index": point.index, "label": point.label}
     try:
         scenario, ctx = _scenario_of(point)
         dwell = build_dwell_table(scenario, cache_dir=ctx["cache_dir"])
-        inputs = plan_inputs(scenario, dwell)
+        plan_inputs(scenario, dwell)  # the planner's input checks, before the solve
         options = SolveOptions(**json.loads(ctx["options"]))
     except ValueError as exc:  # scenario, override, physics and planner input errors
         return {
@@ -1331,8 +1331,7 @@ def evaluate_point(point: SweepPoint) -> dict[str, Any]:
             "has_plan": False,
             "message": str(exc).replace("\n", "; "),
         }
-    quiet_solver_banner()
-    result = plan_buckets(inputs, options)
+    dwell, _, result = plan_checked(scenario, dwell, options, solve=plan_buckets)
     return {**head, **plan_row(scenario, dwell, result)}
 
 
