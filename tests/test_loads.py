@@ -393,3 +393,36 @@ def test_setting_pruning_leaves_the_optimum_unchanged():
     finally:
         loads._without_dominated_settings = original
     assert pruned.objective_value == pytest.approx(whole.objective_value, rel=1e-9)
+
+
+def test_hot_hold_window_is_the_limit_less_the_transfer():
+    # Hot hold 8 min, transfer 5 min: the belt has 3 min at 10 kg/min = 30 kg -> 3 trays.
+    from dataclasses import replace
+
+    inp = one_line(products={"A": (10.0, 50.0, 1.0, {"hot_hold_min": 8.0})})
+    assert candidates(inp, 0.15, 1).cook[("A", "oven-1", "hot")].max_trays == 8
+    inp = replace(inp, tunnels=(replace(inp.tunnels[0], transfer_min=5.0),))
+    assert candidates(inp, 0.15, 1).cook[("A", "oven-1", "hot")].max_trays == 3
+    # A transfer as long as the limit leaves no time: A cannot be made.
+    inp = replace(inp, tunnels=(replace(inp.tunnels[0], transfer_min=8.0),))
+    cand = candidates(inp, 0.15, 1)
+    assert cand.cook == {} and "hot-hold" in " ".join(cand.excluded["A"])
+
+
+def test_a_mixed_batch_on_one_tunnel_feeds_one_product_then_the_other():
+    # A feeds at 10 kg/min, B at 5 kg/min, 10 kg trays, hot hold 10 min, tunnel
+    # changeover 2 min between the two runs. a trays of A take a min, b trays of B
+    # 2b min; either order needs a + 2 + 2b <= 10 (and each alone within 10): the
+    # maximal patterns with both products in a 10-tray oven are (6,1), (4,2), (2,3).
+    prods = {
+        "A": (10.0, 50.0, 1.0, {"hot_hold_min": 10.0}),
+        "B": (10.0, 50.0, 0.5, {"hot_hold_min": 10.0}),
+    }
+    cand = candidates(one_line(products=prods, tunnel_changeover=2.0), 0.15, 2)
+    assert sorted(ld.trays for ld in cand.mixed_pool) == [
+        (("A", 2), ("B", 3)),
+        (("A", 4), ("B", 2)),
+        (("A", 6), ("B", 1)),
+    ]
+    # Each product alone keeps its own cap: 10 trays of A, 5 of B.
+    assert {ld.trays for ld in cand.singles} == {(("A", 10),), (("B", 5),)}

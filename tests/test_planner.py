@@ -51,18 +51,19 @@ def test_shadow_price_of_the_tunnel(solver):
 
 
 def test_shortfall_names_the_order():
-    # 800 kg fit in s1; an order of 900 kg due s1 is 100 kg short
-    # (100/900 = 11 % beats 60 more oven minutes = 12.5 % of the shift).
-    inp = one_line(orders=[OrderData("A", min_kg=900.0, due_shift="s1")], n_shifts=2)
+    # 700 kg fit in s1 (7 batches out by 460 min, 20 min residence before the end);
+    # an order of 720 kg due s1 is 20 kg short (20/720 = 2.8 % beats the 20 more oven
+    # minutes an 8th batch needs, 4.2 % of the shift).
+    inp = one_line(orders=[OrderData("A", min_kg=720.0, due_shift="s1")], n_shifts=2)
     r = plan(inp)
     assert r.status is SolveStatus.INFEASIBLE
     assert len(r.shortfalls) == 1
     s = r.shortfalls[0]
     assert (s.kind, s.subject, s.shift) == ("order", "A", "s1")
-    assert s.amount == pytest.approx(100.0, rel=1e-6)
-    assert s.message == "order for A: 100 kg short by s1"
+    assert s.amount == pytest.approx(20.0, rel=1e-6)
+    assert s.message == "order for A: 20 kg short by s1"
     text = summary_text(r)
-    assert "100 kg short by s1" in text
+    assert "20 kg short by s1" in text
     # proven smallest here; an elastic re-solve stopped with a gap says so instead
     assert "the smallest changes that would make it fit" in text
     assert not any(m.startswith("elastic re-solve") for m in r.messages)
@@ -73,13 +74,14 @@ def test_shortfall_names_the_order():
 
 
 def test_shortfall_names_the_machine_minutes():
-    # A only at 'hot', B only at 'mild', 60-min changeover, mins A 100, B 700: one A
-    # batch + 7 B batches + changeover = 540 min > 480. Cheapest relaxation: 60 more
-    # oven minutes (12.5 %) rather than 100 kg of B (14 %) or of A (100 %).
+    # A only at 'hot', B only at 'mild', 60-min changeover, mins A 100, B 600: one A
+    # batch + 6 B batches + changeover = 480 min > 460 (the last batch must be out
+    # 20 min before the end for its residence). Cheapest relaxation: 20 more oven
+    # minutes (4 %) rather than 100 kg of B (17 %) or of A (100 %).
     rows = [dwell_row("B", "oven-1", "mild", "tunnel-1", "cold", "full", 50.0, 1.0)]
     inp = one_line(
         oven_changeover=60.0,
-        orders=[OrderData("A", min_kg=100.0), OrderData("B", min_kg=700.0)],
+        orders=[OrderData("A", min_kg=100.0), OrderData("B", min_kg=600.0)],
         extra_rows=rows,
         extra_products=("B",),
     )
@@ -87,8 +89,8 @@ def test_shortfall_names_the_machine_minutes():
     assert r.status is SolveStatus.INFEASIBLE
     (s,) = r.shortfalls
     assert (s.kind, s.subject, s.shift, s.unit) == ("machine", "oven-1", "s1", "min")
-    assert s.amount == pytest.approx(60.0, rel=1e-6)
-    assert s.message == "oven-1 needs 60 more minutes in s1"
+    assert s.amount == pytest.approx(20.0, rel=1e-6)
+    assert s.message == "oven-1 needs 20 more minutes in s1"
 
 
 def test_shortfall_for_a_product_the_plant_cannot_make():
@@ -144,22 +146,25 @@ def test_same_input_same_plan(solver):
 def test_tables_and_summary():
     inp = one_line(n_shifts=2)
     r = plan(inp)
+    # 7 batches per shift (out by 460 min), 420 of 480 oven minutes.
     ov = oven_table(r)
-    assert list(ov["batches"]) == [8, 8]
-    assert ov["minutes"].sum() == pytest.approx(960.0)
+    assert list(ov["batches"]) == [7, 7]
+    assert ov["minutes"].sum() == pytest.approx(840.0)
     tu = tunnel_table(r)
     assert set(tu.columns) >= {"belt_speed_m_per_min", "kg", "loading", "tunnel_setting"}
-    assert tu["kg"].sum() == pytest.approx(1600.0)
+    assert tu["kg"].sum() == pytest.approx(1400.0)
     tot = totals_table(r)
-    assert tot.loc["A", "total"] == pytest.approx(1600.0)
+    assert tot.loc["A", "total"] == pytest.approx(1400.0)
     ut = utilisation_table(r)
     oven_u = ut[ut["machine"] == "oven-1"]["utilisation"]
-    assert list(oven_u) == pytest.approx([1.0, 1.0])
+    assert list(oven_u) == pytest.approx([0.875, 0.875])
     assert set(plan_tables(r)) >= {"ovens", "tunnels", "totals", "utilisation", "slack"}
     text = summary_text(r)
-    assert "1,600.0 kg" in text and CAUTION in text
+    assert "1,400.0 kg" in text and CAUTION in text
+    # 40 of the 460 oven minutes are left in each shift, too few for a 60-min batch.
     slack = {s.group: s for s in r.slacks}
-    assert slack["oven_time"].binding == 2
+    assert slack["oven_time"].binding == 0
+    assert slack["oven_time"].smallest_slack == pytest.approx(40.0)
 
 
 def test_plan_exposes_what_the_thermal_recheck_needs():
@@ -242,8 +247,8 @@ def test_no_orders_for_a_product_means_it_is_not_made():
 @pytest.mark.parametrize(
     ("make", "expected"),
     [
-        (lambda: one_line(n_shifts=2), 1600.0),
-        (lambda: one_line(products={"A": (10.0, 50.0, 0.1, {})}), 480.0),
+        (lambda: one_line(n_shifts=2), 1400.0),
+        (lambda: one_line(products={"A": (10.0, 50.0, 0.1, {})}), 220.0),
         (
             lambda: one_line(
                 oven_changeover=60.0,
@@ -251,13 +256,13 @@ def test_no_orders_for_a_product_means_it_is_not_made():
                 extra_rows=[dwell_row("B", "oven-1", "mild", "tunnel-1", "cold", "full", 50, 1)],
                 extra_products=("B",),
             ),
-            700.0,
+            600.0,
         ),
     ],
 )
 def test_pattern_formulation_on_hand_cases(make, expected):
-    # Same hand cases as test_model (800 kg per 480-min shift, 1 kg/min belt, a 60-min
-    # changeover costing a batch).
+    # Same hand cases as test_model (700 kg per 480-min shift, 1 kg/min belt with fill
+    # and drain, a 60-min changeover costing a batch).
     r = plan(make(), SolveOptions(formulation="patterns"))
     assert r.status is SolveStatus.OPTIMAL
     assert r.objective_value == pytest.approx(expected)
@@ -269,18 +274,18 @@ def test_pattern_formulation_on_hand_cases(make, expected):
 
 
 def test_pattern_formulation_is_honest_about_its_gap():
-    # Capped orders (A <= 350, B <= 450) need a 5+5 mixed batch for 800 kg. The pattern
-    # LP already reaches 800 by mixing "all A" and "all B" patterns, so pricing sees no
-    # better pattern and the MILP over the generated patterns stops at 750 kg: the
+    # Capped orders (A <= 350, B <= 350) need a 5+5 mixed batch for 700 kg. The pattern
+    # LP already reaches 700 by mixing "all A" and "all B" patterns, so pricing sees no
+    # better pattern and the MILP over the generated patterns stops at 650 kg: the
     # result must say so through its gap against the LP bound, not claim optimality.
     inp = one_line(
         products={"A": (10.0, 50.0, 1.0, {}), "B": (10.0, 50.0, 1.0, {})},
-        orders=[OrderData("A", max_kg=350.0), OrderData("B", max_kg=450.0)],
+        orders=[OrderData("A", max_kg=350.0), OrderData("B", max_kg=350.0)],
     )
     r = plan(inp, SolveOptions(formulation="patterns"))
     assert r.status is SolveStatus.FEASIBLE_WITH_GAP
-    assert r.best_bound == pytest.approx(800.0, rel=1e-5)
-    assert 750.0 - 1e-6 <= r.objective_value <= r.best_bound
+    assert r.best_bound == pytest.approx(700.0, rel=1e-5)
+    assert 650.0 - 1e-6 <= r.objective_value <= r.best_bound
     assert r.gap == pytest.approx((r.best_bound - r.objective_value) / r.objective_value, rel=1e-3)
 
 
@@ -416,10 +421,20 @@ def test_idle_batches_settings_and_runs_are_dropped_from_a_plan():
     pad_n.varValue = 2.0
     pad_z = next(v for (_o, _os, s), v in model.z.items() if s == empty)
     pad_z.varValue = 1.0
-    pad_y = next(v for (_t, _p, _ts, s), v in model.y.items() if s == empty)
+    pad_y, (t, p, ts, _) = next((v, k) for k, v in model.y.items() if k[3] == empty)
     pad_y.varValue = 1.0
+    # a run fed means its residence level (and every faster one) drains
+    level = model.caps.residence
+    run_res = min(level[r.key] for r in model.routes.values() if r.run == (t, p, ts))
+    pad_u = [
+        v
+        for (t2, li, s), v in model.u.items()
+        if s == empty and t2 == t and model.u_level[(t2, li, s)] <= run_res + 1e-9
+    ]
+    for v in pad_u:
+        v.varValue = 1.0
     assert _constraint_violation(model) < 1e-6  # padded, still a plan
-    assert S._drop_idle(model) == 3
+    assert S._drop_idle(model) == 3 + len(pad_u)
     assert {v.name: v.varValue for v in model.prob.variables()} == clean
 
 

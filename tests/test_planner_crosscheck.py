@@ -2,7 +2,13 @@
 
 * Brute force: every integer combination of batches on small random plants,
   each scored with its own LP (scipy.optimize.linprog) written here from the
-  documented rules, not from optimizer.planning.model.
+  documented rules, not from optimizer.planning.model. Time on the belt
+  counts: the belt feeds from the fill (shortest load/unload + cook) on; the
+  slowest run fed drains its residence (length / speed, a run's residence
+  being that of its fastest route) before the shift ends, which the brute
+  force tries as every possible slowest run; each route alone drains too;
+  and the oven's batches are out by the shift end less the quickest
+  residence.
 * A second solver path: the model's matrices solved with
   scipy.optimize.milp (HiGHS inside scipy, a separate build).
 * HiGHS (in-process) against CBC on the same plans, every objective.
@@ -91,7 +97,12 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
     tun = inp.tunnels[0]
     shifts = [s.name for s in inp.shifts]
     routes = {(r.product, r.oven_setting): r.rate_kg_per_min for r in cand.routes}
+    residence = {
+        (r.product, r.oven_setting): tun.length_m / r.belt_speed_m_per_min for r in cand.routes
+    }
     keys = sorted(routes)
+    run_res = {p: min(v for (q, _), v in residence.items() if q == p) for p, _ in keys}
+    fill = min(oven.load_unload_min + cand.cook[(p, oven.name, os_)].cook_min for p, os_ in keys)
 
     def shift_options(minutes: float):
         out = []
@@ -111,7 +122,10 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
             out.append(counts)
         return out
 
-    per_shift = [shift_options(s.available(oven.name)) for s in inp.shifts]
+    quickest = min(residence.values())
+    per_shift = [
+        shift_options(min(s.available(oven.name), s.minutes - quickest)) for s in inp.shifts
+    ]
     # LP in x[key, shift] >= 0, maximise sum x.
     nv = len(keys) * len(shifts)
 
@@ -127,7 +141,8 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
         running_min[o.product] = running_min.get(o.product, 0.0) + o.min_kg
         minimums.append((o.product, inp.shift_index(o.due_shift), running_min[o.product]))
     best = None
-    for combo in itertools.product(*per_shift):
+    slowest_runs = list(itertools.product(sorted(set(run_res.values())), repeat=len(shifts)))
+    for combo, slowest in itertools.product(itertools.product(*per_shift), slowest_runs):
         supply = {
             (k, s): sum(
                 ld.kg_of(p) * c for ld, c in zip(loads, counts, strict=True) if ld.setting == os_
@@ -149,16 +164,19 @@ def brute_force_most_kg(inp: PlanInputs, max_mix: int) -> float | None:
             continue
         a_ub, b_ub = [], []
         for s in range(len(combo)):
-            for k in range(len(keys)):
+            span = inp.shifts[s].available(tun.name) - fill
+            for k, key in enumerate(keys):
                 row = np.zeros(nv)
                 row[idx(k, s)] = 1.0
                 a_ub.append(row)
-                b_ub.append(supply[(k, s)])
+                # no run slower than the shift's slowest; each route drains alone
+                runs = run_res[key[0]] <= slowest[s] + 1e-9
+                b_ub.append(min(supply[(k, s)], routes[key] * (span - residence[key])) * runs)
             row = np.zeros(nv)
             for k, key in enumerate(keys):
                 row[idx(k, s)] = 1.0 / routes[key]
             a_ub.append(row)
-            b_ub.append(inp.shifts[s].available(tun.name))
+            b_ub.append(span - slowest[s])
         running: dict[str, float] = {}
         for o in sorted(inp.orders, key=lambda o: inp.shift_index(o.due_shift)):
             due = inp.shift_index(o.due_shift)

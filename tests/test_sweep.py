@@ -173,23 +173,29 @@ def test_tunnel_length_throughput_rises_while_the_tunnel_limits_then_stays_flat(
     chill_min = float(dwell["chill_min"].iloc[0])
     cook_min = float(dwell["cook_min"].iloc[0])
     # Tunnel-limited part: non-decreasing, and equal to the belt's capacity by hand:
-    # kg = loading x coverage x width x (length / residence) x shift minutes.
+    # kg = loading x coverage x width x (length / residence) x feed minutes, the belt
+    # feeding from the first batch out (fill = cook + load/unload) until the shift end
+    # less the residence its last pieces need (the drain).
+    fill = cook_min + LOAD_UNLOAD_MIN
     tunnel_part = kg[:first_oven]
     assert len(tunnel_part) >= 3
     assert all(b > a for a, b in itertools.pairwise(tunnel_part))
     for length, got in zip(lengths[:first_oven], tunnel_part, strict=True):
-        hand = BELT_KG_PER_M * (length / chill_min) * SHIFT_MIN
+        hand = BELT_KG_PER_M * (length / chill_min) * (SHIFT_MIN - fill - chill_min)
         assert got == pytest.approx(hand, rel=0.01)
-    # Oven-limited part: flat, at whole batches of the oven cycle by hand.
+    # Oven-limited part: flat, at whole batches of the oven cycle by hand, the last
+    # batch out a residence before the shift ends.
     oven_part = kg[first_oven:]
     assert len(oven_part) >= 2
-    batches = math.floor(SHIFT_MIN / (cook_min + LOAD_UNLOAD_MIN))
+    batches = math.floor((SHIFT_MIN - chill_min) / (cook_min + LOAD_UNLOAD_MIN))
     for got in oven_part:
         assert got == pytest.approx(batches * BATCH_KG, rel=1e-6)
     # kg per week is kg per shift times the study's shifts a week.
     assert list(table["kg_per_week"]) == pytest.approx([10 * k for k in kg])
-    # Utilisation: the tunnel is full while it limits, the oven once it does.
-    assert table["util:tunnel-a"].iloc[0] == pytest.approx(1.0, abs=1e-6)
+    # Utilisation: the tunnel feeds all it can while it limits (idle in the fill and
+    # while the last pieces drain), the oven once it does.
+    feeding = SHIFT_MIN - fill - chill_min
+    assert table["util:tunnel-a"].iloc[0] == pytest.approx(feeding / SHIFT_MIN, rel=0.01)
     assert table["util:tunnel-a"].iloc[-1] < 0.9
     assert (table["marginal_value"].iloc[:first_oven] > 0).all()
 
@@ -442,7 +448,7 @@ def test_added_oven_demand_growth_product_mix_and_shift_pattern(tmp_path):
     assert raw["ovens"][2]["trays"] == base["ovens"][0]["trays"]
     assert raw["tunnels"][0]["fed_by"][-2:] == ["rack-oven-1-copy-1", "rack-oven-1-copy-2"]
     orders = {o["product"]: o for o in raw["orders"]}
-    assert orders["chicken-fillet"]["min_kg"] == pytest.approx(1200 * 1.5)
+    assert orders["chicken-fillet"]["min_kg"] == pytest.approx(600 * 1.5)
     assert orders["chicken-fillet"]["max_kg"] == pytest.approx(3000 * 1.5)
     assert orders["pork-sausage"]["min_kg"] == pytest.approx(800 * 1.5 * 2)
     assert orders["pork-sausage"]["max_kg"] == pytest.approx(2000 * 1.5 * 2)

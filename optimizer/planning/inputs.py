@@ -456,7 +456,10 @@ class SolveOptions:
         ``None`` = automatic (when the enumerated pool is larger than
         ``max_enumerated_loads``).
     max_enumerated_loads : int
-        Pool size above which column generation is used automatically.
+        Pool size above which column generation is used automatically. With
+        the belt's fill and drain in the model the demo's pool of 254 mixed
+        loads, enumerated, left HiGHS at a 20 % gap after 60 s, where column
+        generation solved it to optimality in 9 s: hence 200, not 500.
     formulation : str
         ``"compact"`` (default: integer batches per load and shift, exact)
         or ``"patterns"`` (one choice of oven-shift pattern per oven and
@@ -480,7 +483,7 @@ class SolveOptions:
     mix_tolerance: float = 0.15
     max_mix_products: int = 2
     column_generation: bool | None = None
-    max_enumerated_loads: int = 500
+    max_enumerated_loads: int = 200
     formulation: str = "compact"
     shadow_prices: bool = True
     diagnose: bool = True

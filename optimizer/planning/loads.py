@@ -21,16 +21,19 @@ Rules used here (documented choices):
 * Belt speed is ``max_belt_speed_m_per_min`` from the table, capped at the
   tunnel's maximum; a speed below the tunnel's minimum rules the route out.
   Throughput [kg/min] = ``belt_kg_per_m2 * coverage * width_m * speed``.
-* Hot hold (a linear sufficient condition, per batch): a batch holding ``m``
-  kg of product p, cleared at ``r`` kg/min, waits at most ``m / r`` minutes
-  for the belt once the belt takes it as it is unloaded. So (i) the trays of
-  p in any batch at (oven, setting) are capped so that ``m <= r_max *
-  hot_hold`` with ``r_max`` the fastest route from there, and (ii) only
-  routes with ``r * hot_hold >= m_max`` may take p from there, ``m_max`` the
-  largest kg of p in any load at that oven and setting. The shift-level
-  model does not sequence runs inside a shift: the condition assumes each
-  tunnel takes a batch as it is unloaded, which a shift planner must keep
-  when ovens sharing one tunnel unload at once.
+* Hot hold (per batch): every tray of a batch must be on the belt within
+  the hot-hold limit of its unload end, the transfer counted, so the belt
+  has ``window = hot_hold - transfer`` minutes to take it. A batch holding
+  ``m`` kg of product p, fed at ``r`` kg/min, needs ``m / r`` minutes. So
+  (i) the trays of p in any batch at (oven, setting) are capped so that
+  ``m <= max(r * window)`` over the routes from there, and (ii) only routes
+  with ``r * window >= m_max`` may take p from there, ``m_max`` the largest
+  kg of p in any load at that oven and setting. A mixed batch going to one
+  tunnel feeds its two products one after the other with the tunnel's
+  changeover between them (two runs), each product within its own window;
+  its tray patterns are capped so that some order fits. These are necessary
+  conditions at the fastest feed; whether the belt is free when a batch
+  comes out is the timed schedule's to keep.
 * A mixed load holds at most two products whose cook dwells are close: the
   longer is at most ``(1 + mix_tolerance)`` times the shorter; the batch
   runs as long as the slower product. Batches may be loaded below the
@@ -55,7 +58,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from optimizer.planning.inputs import Objective, PlanInputs
+from optimizer.planning.inputs import Objective, OvenData, PlanInputs, ProductData, TunnelData
 
 _KEY_SEP = "|"
 
@@ -314,13 +317,15 @@ def candidates(inputs: PlanInputs, mix_tolerance: float, max_mix_products: int) 
             )
             continue
         trays = min(oven.trays, math.floor(oven.capacity_kg / prod.kg_per_tray + 1e-9))
-        rmax = max(rt.rate_kg_per_min for rt in raw[src])
         if math.isfinite(prod.hot_hold_min):
-            trays = min(trays, math.floor(rmax * prod.hot_hold_min / prod.kg_per_tray + 1e-9))
+            most = max(
+                rt.rate_kg_per_min * feed_window(prod, tunnels[rt.tunnel]) for rt in raw[src]
+            )
+            trays = min(trays, math.floor(most / prod.kg_per_tray + 1e-9))
         if trays < 1:
             excluded[p].append(
                 f"{o} at {os_}: not one tray fits the oven or the hot-hold limit "
-                f"({prod.hot_hold_min:g} min at the fastest belt)"
+                f"({prod.hot_hold_min:g} min less the transfer, at the fastest belt)"
             )
             continue
         cook[src] = CookOption(p, o, os_, cook_min[src], heat_in[src], trays)
@@ -329,7 +334,7 @@ def candidates(inputs: PlanInputs, mix_tolerance: float, max_mix_products: int) 
             rt
             for rt in raw[src]
             if not math.isfinite(prod.hot_hold_min)
-            or rt.rate_kg_per_min * prod.hot_hold_min >= m_max * (1 - 1e-9)
+            or rt.rate_kg_per_min * feed_window(prod, tunnels[rt.tunnel]) >= m_max * (1 - 1e-9)
         ]
         routes.extend(_undominated(ok))
     routes = _without_dominated_settings(routes, energy=inputs.objective is Objective.LEAST_ENERGY)
@@ -350,7 +355,7 @@ def candidates(inputs: PlanInputs, mix_tolerance: float, max_mix_products: int) 
         key=lambda ld: ld.key,
     )
     mixed = (
-        sorted(_mixed_loads(inputs, cook, mix_tolerance), key=lambda ld: ld.key)
+        sorted(_mixed_loads(inputs, cook, mix_tolerance, routes), key=lambda ld: ld.key)
         if max_mix_products >= 2
         else []
     )
@@ -361,6 +366,61 @@ def candidates(inputs: PlanInputs, mix_tolerance: float, max_mix_products: int) 
         mixed_pool=tuple(mixed),
         excluded={p: tuple(v) for p, v in sorted(excluded.items()) if v and p in planned},
     )
+
+
+def feed_window(product: ProductData, tunnel: TunnelData) -> float:
+    """Minutes the belt has to take a batch of ``product``: hot hold less transfer [min].
+
+    ``inf`` without a hot-hold limit; 0 when the transfer alone uses the limit.
+    """
+    return max(0.0, product.hot_hold_min - tunnel.transfer_min)
+
+
+def _best_feed(
+    inputs: PlanInputs, routes: tuple[TunnelRoute, ...] | list[TunnelRoute]
+) -> dict[tuple[str, str, str], dict[str, tuple[float, float]]]:
+    """(product, oven, setting) -> tunnel -> (fastest feed [kg/min], feed window [min])."""
+    tunnels = {t.name: t for t in inputs.tunnels}
+    out: dict[tuple[str, str, str], dict[str, tuple[float, float]]] = defaultdict(dict)
+    for r in routes:
+        win = feed_window(inputs.product(r.product), tunnels[r.tunnel])
+        rate = max(r.rate_kg_per_min, out[r.source].get(r.tunnel, (0.0, win))[0])
+        out[r.source][r.tunnel] = (rate, win)
+    return out
+
+
+def _pair_fits(
+    feed_a: Mapping[str, tuple[float, float]],
+    feed_b: Mapping[str, tuple[float, float]],
+    changeover: Mapping[str, float],
+    kg_a: float,
+    kg_b: float,
+):
+    """Predicate ``(trays_a, trays_b) -> bool``: the batch can go on the belts in time.
+
+    Each product goes to one tunnel. On two tunnels both feed at once and
+    each must fit its own window; on one tunnel one product follows the
+    other after the tunnel's changeover, each within its window (either
+    order). Feeds are at the fastest route [kg/min].
+    """
+
+    def fits(na: int, nb: int) -> bool:
+        ma, mb = na * kg_a, nb * kg_b
+        for ta, (ra, wa) in feed_a.items():
+            for tb, (rb, wb) in feed_b.items():
+                da, db = ma / ra, mb / rb
+                if ta != tb:
+                    if da <= wa + 1e-9 and db <= wb + 1e-9:
+                        return True
+                    continue
+                co = changeover.get(ta, 0.0)
+                if da <= wa + 1e-9 and da + co + db <= wb + 1e-9:
+                    return True
+                if db <= wb + 1e-9 and db + co + da <= wa + 1e-9:
+                    return True
+        return False
+
+    return fits
 
 
 def _undominated(routes: list[TunnelRoute]) -> list[TunnelRoute]:
@@ -464,6 +524,7 @@ def pair_patterns(
     kg_b: float,
     max_a: int,
     max_b: int,
+    fits=None,
 ) -> list[tuple[int, int]]:
     """Maximal tray patterns (a, b), a >= 1, b >= 1, of two products in one batch.
 
@@ -477,6 +538,9 @@ def pair_patterns(
         kg per tray of each product [kg].
     max_a, max_b : int
         Tray caps of each product (hot hold) [-].
+    fits : callable, optional
+        ``fits(a, b) -> bool``, monotone (fewer trays never fit worse): the
+        two products of the batch can go onto the belts within the hot hold.
 
     Returns
     -------
@@ -487,6 +551,8 @@ def pair_patterns(
     for a in range(1, min(max_a, trays - 1) + 1):
         room = capacity_kg - a * kg_a
         b = min(trays - a, max_b, math.floor(room / kg_b + 1e-9))
+        while fits is not None and b >= 1 and not fits(a, b):
+            b -= 1
         if b >= 1:
             best.append((a, b))
     out = []
@@ -516,17 +582,39 @@ def _pairs(
                 yield o, os_, pa, pb
 
 
+def _pair_patterns_of(
+    inputs: PlanInputs,
+    oven: OvenData,
+    a: CookOption,
+    b: CookOption,
+    feeds: Mapping[tuple[str, str, str], Mapping[str, tuple[float, float]]] | None,
+) -> list[tuple[int, int]]:
+    """Maximal tray patterns of cook options ``a`` and ``b`` in one batch.
+
+    With ``feeds`` (from :func:`_best_feed`) the patterns also keep the hot
+    hold of the two products together (:func:`_pair_fits`).
+    """
+    ka, kb = inputs.product(a.product).kg_per_tray, inputs.product(b.product).kg_per_tray
+    fits = None
+    if feeds is not None:
+        changeover = {t.name: t.changeover_min for t in inputs.tunnels}
+        fa = feeds.get((a.product, a.oven, a.setting), {})
+        fb = feeds.get((b.product, b.oven, b.setting), {})
+        fits = _pair_fits(fa, fb, changeover, ka, kb)
+    return pair_patterns(oven.trays, oven.capacity_kg, ka, kb, a.max_trays, b.max_trays, fits)
+
+
 def _mixed_loads(
     inputs: PlanInputs,
     cook: Mapping[tuple[str, str, str], CookOption],
     tolerance: float,
+    routes: list[TunnelRoute],
 ) -> list[BatchLoad]:
     out = []
     ovens = {o.name: o for o in inputs.ovens}
+    feeds = _best_feed(inputs, routes)
     for o, os_, a, b in _pairs(inputs, cook, tolerance):
-        oven = ovens[o]
-        ka, kb = inputs.product(a.product).kg_per_tray, inputs.product(b.product).kg_per_tray
-        for na, nb in pair_patterns(oven.trays, oven.capacity_kg, ka, kb, a.max_trays, b.max_trays):
+        for na, nb in _pair_patterns_of(inputs, ovens[o], a, b, feeds):
             out.append(_load(inputs, o, os_, {a.product: na, b.product: nb}, cook))
     return out
 
@@ -539,6 +627,7 @@ def price_mixed_loads(
     minute_cost: Mapping[tuple[str, str, str], float],
     limit_per_oven_setting: int = 3,
     threshold: float = 1e-6,
+    routes: tuple[TunnelRoute, ...] | None = None,
 ) -> list[tuple[float, BatchLoad]]:
     """Knapsack pricing of mixed loads from LP duals (column generation).
 
@@ -568,6 +657,10 @@ def price_mixed_loads(
         Most loads returned per (oven, setting).
     threshold : float
         Least improvement a load must bring per batch [objective units].
+    routes : sequence of TunnelRoute, optional
+        The tunnel routes (``Candidates.routes``): a pattern must go onto the
+        belts within the hot hold; ``None`` checks only each product's tray
+        cap.
 
     Returns
     -------
@@ -577,11 +670,12 @@ def price_mixed_loads(
     shifts = [s.name for s in inputs.shifts]
     found: dict[tuple[str, str], dict[str, tuple[float, BatchLoad]]] = defaultdict(dict)
     ovens = {o.name: o for o in inputs.ovens}
+    feeds = None if routes is None else _best_feed(inputs, routes)
     for o, os_, a, b in _pairs(inputs, cook, tolerance):
         oven = ovens[o]
         ka, kb = inputs.product(a.product).kg_per_tray, inputs.product(b.product).kg_per_tray
         cycle = max(a.cook_min, b.cook_min) + oven.load_unload_min
-        patterns = pair_patterns(oven.trays, oven.capacity_kg, ka, kb, a.max_trays, b.max_trays)
+        patterns = _pair_patterns_of(inputs, oven, a, b, feeds)
         if not patterns:
             continue
         pat = np.asarray(patterns, dtype=float)

@@ -20,14 +20,33 @@ Constraints
 
 * oven time: ``sum cycle * n + changeover * (sum z - 1) <= minutes`` (the
   first setting of a shift is free); link ``sum cycle * n <= minutes * z``;
-* tunnel time: ``sum x / rate + changeover * (sum y - 1) <= minutes``; link
-  ``sum x / rate <= minutes * y`` per run;
+* tunnel time: ``sum x / rate + changeover * (sum y - 1) <= span``, and the
+  same plus ``residence * y`` per run (see *Fill and drain*); link
+  ``sum x / rate <= span * y`` per run;
 * flow: for each (product, oven, setting, shift) the kg unloaded equal the
   kg the tunnels take from there in that shift;
 * demand: cumulative kg of a product by each due shift >= the cumulative
   order minimums due by then; total over the horizon <= the sum of the
   order maximums;
 * LEAST_ENERGY: total kg >= the fixed output.
+
+Fill and drain (:func:`time_caps`)
+
+A tunnel's belt takes nothing until the first batch of the shift is out: the
+``fill`` is the shortest load + cook + unload + transfer of any route into
+it (its own stops may sit in that time, the belt being empty). Its last
+pieces need their whole residence ``L / v`` on the belt before the shift
+ends. The drain is the residence of the slowest run fed in the shift: fed
+in order of residence, fastest first, each run can go at its own speed and
+the slowest one drains last. It is one row per run, ``minutes + changeovers
++ residence(run) * y[run] <= span`` (``drain`` rows), beside the tunnel-time
+row. The ``span`` is the tunnel's available minutes less the part of the
+fill its own stops do not cover. When the shifts run back to back (``PlanInputs.back_to_back``)
+the belt may carry pieces into the next shift and only the last shift has a
+drain. An oven's batches must be out early enough for their product to be
+transferred and leave the belt: the oven's minutes are capped at the latest
+such unload of any tunnel it feeds. Machine-minute cuts
+(``build_model(cuts=...)``) take further minutes off a machine in a shift.
 
 The model is always a minimisation (most kg becomes ``min -kg``) so duals
 read the same way for every solver: ``pi = d(objective)/d(rhs)``. A tiny
@@ -39,13 +58,14 @@ from __future__ import annotations
 
 import math
 from collections import defaultdict
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 import pulp
 import scipy.sparse as sp
 
-from optimizer.planning.inputs import Objective, PlanInputs
+from optimizer.planning.inputs import Objective, PlanInputs, TunnelData
 from optimizer.planning.loads import BatchLoad, Candidates, ShiftPattern, TunnelRoute, make_pattern
 
 TIE_BREAK = 1e-3
@@ -118,6 +138,145 @@ def product_caps(inputs: PlanInputs) -> dict[str, float]:
     return dict(caps)
 
 
+LEVEL_MERGE = 0.05
+"""Residences within this share of a level's lowest one share its drain binary [-].
+
+The level drains its lowest residence, so merging only loosens the bound."""
+
+
+def drain_levels(
+    residence: Mapping[tuple[str, str], float],
+) -> tuple[list[tuple[float, float]], dict[tuple[str, str], int]]:
+    """Residence levels of a tunnel's runs in one shift, for the drain.
+
+    Parameters
+    ----------
+    residence : mapping
+        (product, tunnel setting) -> residence of the run's fastest route [min].
+
+    Returns
+    -------
+    steps : list of (float, float)
+        Per level, fastest first: its residence and the step from the level
+        before (the first step is its residence) [min]. The drain of a shift
+        is the sum of the steps of the levels in use, i.e. the residence of
+        the slowest level fed.
+    of_run : dict
+        (product, tunnel setting) -> level index.
+    """
+    steps: list[tuple[float, float]] = []
+    of_run: dict[tuple[str, str], int] = {}
+    for run, res in sorted(residence.items(), key=lambda kv: (kv[1], kv[0])):
+        if not steps or res > steps[-1][0] * (1.0 + LEVEL_MERGE) + 1e-9:
+            prev = steps[-1][0] if steps else 0.0
+            steps.append((res, res - prev))
+        of_run[run] = len(steps) - 1
+    return steps, of_run
+
+
+def _runs_by_tunnel_shift(run_terms: Mapping) -> dict[tuple[str, str], list]:
+    out: dict[tuple[str, str], list] = defaultdict(list)
+    for key in run_terms:
+        out[(key[0], key[3])].append(key)
+    return out
+
+
+def residence_min(route: TunnelRoute, tunnel: TunnelData) -> float:
+    """Residence of a piece on the belt at the route's speed, ``L / v`` [min]."""
+    return tunnel.length_m / route.belt_speed_m_per_min
+
+
+@dataclass(frozen=True)
+class TimeCaps:
+    """Minutes each machine can use in each shift once fill and drain are counted.
+
+    Attributes
+    ----------
+    oven : dict
+        (oven, shift) -> most minutes of batches and changeovers [min]: the
+        available minutes, or less when the batches must be out earlier for
+        their product to be transferred and leave a tunnel by the shift end.
+    tunnel : dict
+        (tunnel, shift) -> span for feed, changeovers and drain [min]: the
+        available minutes less the part of the fill the tunnel's own stops
+        do not cover.
+    fill : dict
+        tunnel -> shortest load + cook + unload + transfer of a route into it
+        [min] (0 when no route reaches it).
+    drain : dict
+        shift -> True when the belt must be empty at the end of the shift.
+    residence : dict
+        route key -> residence at the route's belt speed [min].
+    cuts : dict
+        (machine, shift) -> minutes taken off by schedule cuts [min].
+    """
+
+    oven: dict[tuple[str, str], float]
+    tunnel: dict[tuple[str, str], float]
+    fill: dict[str, float]
+    drain: dict[str, bool]
+    residence: dict[str, float]
+    cuts: dict[tuple[str, str], float]
+
+
+def time_caps(
+    inputs: PlanInputs,
+    cand: Candidates,
+    cuts: Mapping[tuple[str, str], float] | None = None,
+) -> TimeCaps:
+    """Fill, drain and the minutes left to each machine in each shift.
+
+    Parameters
+    ----------
+    inputs : PlanInputs
+        Planner inputs.
+    cand : Candidates
+        Cook options and routes.
+    cuts : mapping, optional
+        (machine, shift) -> minutes to take off that machine's cap [min]
+        (from a schedule that could not place the plan).
+
+    Returns
+    -------
+    TimeCaps
+    """
+    cuts = dict(cuts or {})
+    ovens = {o.name: o for o in inputs.ovens}
+    tunnels = {t.name: t for t in inputs.tunnels}
+    last = inputs.shifts[-1].name
+    drain = {s.name: (not inputs.back_to_back) or s.name == last for s in inputs.shifts}
+    residence = {r.key: residence_min(r, tunnels[r.tunnel]) for r in cand.routes}
+    fill: dict[str, float] = {}
+    for t, tun in tunnels.items():
+        firsts = [
+            ovens[r.oven].load_unload_min + cand.cook[r.source].cook_min + tun.transfer_min
+            for r in cand.routes
+            if r.tunnel == t and r.source in cand.cook
+        ]
+        fill[t] = min(firsts) if firsts else 0.0
+    quickest: dict[tuple[str, str], float] = {}
+    for r in cand.routes:
+        k = (r.oven, r.tunnel)
+        quickest[k] = min(quickest.get(k, math.inf), residence[r.key])
+    oven_cap: dict[tuple[str, str], float] = {}
+    tunnel_cap: dict[tuple[str, str], float] = {}
+    for s in inputs.shifts:
+        common = sum(x.minutes for x in s.stops if x.machine is None)
+        for t in tunnels:
+            own = sum(x.minutes for x in s.stops if x.machine == t)
+            cap = s.available(t) - max(0.0, fill[t] - own) - cuts.get((t, s.name), 0.0)
+            tunnel_cap[(t, s.name)] = max(cap, 0.0)
+        for o in ovens:
+            ends = [
+                s.window(t) - common - tunnels[t].transfer_min - (res if drain[s.name] else 0.0)
+                for (o2, t), res in quickest.items()
+                if o2 == o
+            ]
+            cap = min(s.available(o), max(ends)) if ends else s.available(o)
+            oven_cap[(o, s.name)] = max(cap - cuts.get((o, s.name), 0.0), 0.0)
+    return TimeCaps(oven_cap, tunnel_cap, fill, drain, residence, cuts)
+
+
 @dataclass
 class PlanModel:
     """A built plan model: the PuLP problem and its index maps.
@@ -143,6 +302,11 @@ class PlanModel:
         Demand groups, index = key of ``rows["demand_min"]``.
     elastic : bool
         Whether this is the elastic (shortfall) model.
+    caps : TimeCaps or None
+        Fill, drain and the minutes each machine may use per shift.
+    u, u_level : dict
+        (tunnel, level, shift) -> binary "a run of this residence level or
+        slower is fed" and the level's residence [min] (shifts with a drain).
     """
 
     prob: pulp.LpProblem
@@ -164,6 +328,9 @@ class PlanModel:
     lam: dict[str, pulp.LpVariable] = field(default_factory=dict)
     patterns: dict[str, ShiftPattern] = field(default_factory=dict)
     pattern_mode: bool = False
+    caps: TimeCaps | None = None
+    u: dict[tuple[str, int, str], pulp.LpVariable] = field(default_factory=dict)
+    u_level: dict[tuple[str, int, str], float] = field(default_factory=dict)
     _count: int = 0
 
     def _var(self, prefix: str, low: float | None, up: float | None, cat: str):
@@ -179,6 +346,7 @@ class PlanModel:
             *self.y.values(),
             *self.f.values(),
             *self.lam.values(),
+            *self.u.values(),
         ]
 
     def add_pattern(self, pattern: ShiftPattern) -> bool:
@@ -207,11 +375,17 @@ class PlanModel:
     @property
     def binary_vars(self) -> list[pulp.LpVariable]:
         """All binary (on/off) variables."""
-        return [*self.z.values(), *self.y.values(), *self.f.values()]
+        return [*self.z.values(), *self.y.values(), *self.f.values(), *self.u.values()]
 
     def available(self, machine: str, shift: str) -> float:
         """Available minutes of a machine in a shift [min]."""
         return next(s for s in self.inputs.shifts if s.name == shift).available(machine)
+
+    def cap(self, machine: str, shift: str) -> float:
+        """Minutes the model lets a machine use in a shift (fill, drain, cuts) [min]."""
+        if (machine, shift) in self.caps.oven:
+            return self.caps.oven[(machine, shift)]
+        return self.caps.tunnel[(machine, shift)]
 
     def add_load(self, load: BatchLoad) -> bool:
         """Add a batch load (a column-generation column) to the built model.
@@ -223,7 +397,7 @@ class PlanModel:
         self.loads[load.key] = load
         oven = next(o for o in self.inputs.ovens if o.name == load.oven)
         for s in self.inputs.shifts:
-            cap = s.available(oven.name) + self._extra_cap()
+            cap = self.cap(oven.name, s.name) + self._extra_cap()
             ub = math.floor(cap / load.cycle_min + 1e-9)
             if ub < 1:
                 continue
@@ -235,6 +409,9 @@ class PlanModel:
             if link is not None:
                 link.expr.addterm(nv, load.cycle_min)
             for p, kg in load.kg:
+                flow = self.rows["flow"].get((p, oven.name, load.setting, s.name))
+                if flow is None:
+                    continue  # no route takes p from here in this shift (fill, drain)
                 wv = self._var("w", 0, None, pulp.LpContinuous)
                 self.w[(load.key, p, s.name)] = wv
                 row = pulp.LpConstraint(
@@ -245,7 +422,7 @@ class PlanModel:
                 )
                 self.prob.addConstraint(row)
                 self.rows["capacity"][(load.key, p, s.name)] = row
-                self.rows["flow"][(p, oven.name, load.setting, s.name)].expr.addterm(wv, 1.0)
+                flow.expr.addterm(wv, 1.0)
         return True
 
     def _extra_cap(self) -> float:
@@ -298,6 +475,7 @@ def build_model(
     elastic: bool = False,
     patterns: dict | None = None,
     penalty: float | None = None,
+    cuts: Mapping[tuple[str, str], float] | None = None,
 ) -> PlanModel:
     """Build the plan MILP.
 
@@ -328,6 +506,9 @@ def build_model(
         Pattern formulation: cost per kg short of a demand minimum (phase-1
         shortfall variables used while generating columns, so the LP always
         has duals; set their upper bounds to 0 before the final MILP).
+    cuts : mapping, optional
+        (machine, shift) -> minutes taken off that machine in that shift
+        [min], e.g. where a timed schedule could not place the plan.
 
     Returns
     -------
@@ -336,16 +517,18 @@ def build_model(
     prob = pulp.LpProblem("shift_plan", pulp.LpMinimize)
     m = PlanModel(prob=prob, inputs=inputs, loads={}, routes={}, elastic=elastic)
     m.pattern_mode = patterns is not None
+    m.caps = caps = time_caps(inputs, cand, cuts)
     shifts = [s.name for s in inputs.shifts]
     ovens = {o.name: o for o in inputs.ovens}
     tunnels = {t.name: t for t in inputs.tunnels}
     avail = {(mc, s.name): s.available(mc) for s in inputs.shifts for mc in [*ovens, *tunnels]}
+    cap = {**caps.oven, **caps.tunnel}
     total_minutes = max(1.0, sum(avail.values()))
     m.tie_per_min = TIE_BREAK / total_minutes
     xcap = m._extra_cap()
     obj = inputs.objective
     prods = {p.name: p for p in inputs.products}
-    for g in ("oven_time", "oven_link", "tunnel_time", "tunnel_link", "flow", "capacity"):
+    for g in ("oven_time", "oven_link", "tunnel_time", "tunnel_link", "drain", "flow", "capacity"):
         m.rows[g] = {}
     for g in ("demand_min", "demand_max", "output", "done", "done_order", "pattern_choice"):
         m.rows[g] = {}
@@ -366,7 +549,7 @@ def build_model(
         oven = ovens[o]
         for s in shifts:
             terms = oven_terms[(o, s)]
-            rhs = avail[(o, s)] + (oven.changeover_min if terms else 0.0)
+            rhs = cap[(o, s)] + (oven.changeover_min if terms else 0.0)
             if elastic:
                 ev = m._var("e", 0, xcap, pulp.LpContinuous)
                 m.extra[(o, s)] = ev
@@ -382,7 +565,7 @@ def build_model(
             m.rows["oven_time"][(o, s)] = row
     for (o, os_, s), zv in m.z.items():
         row = pulp.LpConstraint(
-            pulp.LpAffineExpression([(zv, -(avail[(o, s)] + xcap))]),
+            pulp.LpAffineExpression([(zv, -(cap[(o, s)] + xcap))]),
             pulp.LpConstraintLE,
             rhs=0.0,
             name=f"oven_link_{len(m.rows['oven_link']):05d}",
@@ -395,11 +578,14 @@ def build_model(
     tunnel_terms: dict[tuple[str, str], list] = defaultdict(list)
     run_terms: dict[tuple[str, str, str, str], list] = defaultdict(list)
     product_shift_x: dict[tuple[str, str], list] = defaultdict(list)
+    run_residence: dict[tuple[str, str, str], float] = {}
     for r in cand.routes:
         m.routes[r.key] = r
+        res = caps.residence[r.key]
+        run_residence[r.run] = min(run_residence.get(r.run, math.inf), res)
         for s in shifts:
-            cap_min = avail[(r.tunnel, s)] + xcap
-            if cap_min <= 0:
+            cap_min = cap[(r.tunnel, s)] - (res if caps.drain[s] else 0.0) + xcap
+            if cap_min <= 1e-9:
                 continue
             xv = m._var("x", 0, r.rate_kg_per_min * cap_min, pulp.LpContinuous)
             m.x[(r.key, s)] = xv
@@ -417,27 +603,67 @@ def build_model(
                 objective_terms.append((xv, r.heat_in_kj_per_kg + r.heat_out_kj_per_kg + tie))
             else:
                 objective_terms.append((xv, tie))
-    # Tunnel run binaries and time rows.
+    # Tunnel run binaries (changeovers), residence levels (drain) and time rows.
+    levels = {
+        (t, s): drain_levels({k[1:3]: run_residence[(t, *k[1:3])] for k in keys_ts})
+        for (t, s), keys_ts in _runs_by_tunnel_shift(run_terms).items()
+        if caps.drain[s]
+    }
+    for (t, s), (steps, _of_run) in sorted(levels.items()):
+        prev_u = None
+        for li, (lo_res, step) in enumerate(steps):
+            uv = m._var("u", 0, 1, pulp.LpInteger)
+            m.u[(t, li, s)] = uv
+            m.u_level[(t, li, s)] = lo_res
+            tunnel_terms[(t, s)].append((uv, step))
+            if prev_u is not None:  # a slower level in use means every faster one counts
+                row = pulp.LpConstraint(
+                    pulp.LpAffineExpression([(uv, 1.0), (prev_u, -1.0)]),
+                    pulp.LpConstraintLE,
+                    rhs=0.0,
+                    name=f"drain_{len(m.rows['drain']):05d}",
+                )
+                prob.addConstraint(row)
+                m.rows["drain"][(t, li, s)] = row
+            prev_u = uv
     for key in sorted(run_terms):
-        t, _p, _ts, s = key
+        t, p, ts, s = key
         tun = tunnels[t]
+        drained = (t, s) in levels
+        res = run_residence[(t, p, ts)] if drained else 0.0
+        big_m = cap[(t, s)] - res + xcap
+        uv = m.u[(t, levels[(t, s)][1][(p, ts)], s)] if drained else None
         if tun.changeover_min > 0:
             yv = m._var("y", 0, 1, pulp.LpInteger)
             m.y[key] = yv
-            row = pulp.LpConstraint(
-                pulp.LpAffineExpression([*run_terms[key], (yv, -(avail[(t, s)] + xcap))]),
-                pulp.LpConstraintLE,
-                rhs=0.0,
-                name=f"tunnel_link_{len(m.rows['tunnel_link']):05d}",
-            )
-            prob.addConstraint(row)
-            m.rows["tunnel_link"][key] = row
             tunnel_terms[(t, s)].append((yv, tun.changeover_min))
+            on = yv
+            if uv is not None:
+                row = pulp.LpConstraint(
+                    pulp.LpAffineExpression([(yv, 1.0), (uv, -1.0)]),
+                    pulp.LpConstraintLE,
+                    rhs=0.0,
+                    name=f"drain_{len(m.rows['drain']):05d}",
+                )
+                prob.addConstraint(row)
+                m.rows["drain"][key] = row
+        elif uv is not None:
+            on = uv
+        else:
+            continue
+        row = pulp.LpConstraint(
+            pulp.LpAffineExpression([*run_terms[key], (on, -big_m)]),
+            pulp.LpConstraintLE,
+            rhs=0.0,
+            name=f"tunnel_link_{len(m.rows['tunnel_link']):05d}",
+        )
+        prob.addConstraint(row)
+        m.rows["tunnel_link"][key] = row
     for t, s in sorted(tunnel_terms):
         tun = tunnels[t]
         terms = tunnel_terms[(t, s)]
         has_y = tun.changeover_min > 0
-        rhs = avail[(t, s)] + (tun.changeover_min if has_y else 0.0)
+        rhs = cap[(t, s)] + (tun.changeover_min if has_y else 0.0)
         if elastic:
             ev = m._var("e", 0, xcap, pulp.LpContinuous)
             m.extra[(t, s)] = ev

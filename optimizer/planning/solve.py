@@ -54,7 +54,7 @@ from optimizer.planning.loads import (
     make_pattern,
     price_mixed_loads,
 )
-from optimizer.planning.model import PlanModel, build_model
+from optimizer.planning.model import PlanModel, build_model, time_caps
 from optimizer.planning.results import (
     ELASTIC_STOPPED,
     OBJECTIVE_UNITS,
@@ -363,6 +363,7 @@ def _generate_columns(
             kg_value,
             minute_cost,
             limit_per_oven_setting=LOADS_PER_ROUND,
+            routes=cand.routes,
         )
         added = sum(model.add_load(load) for _, load in priced)
         if added == 0:
@@ -505,15 +506,26 @@ def _shadow_prices(
         status, *_ = _run(model.prob, solver, options, mip=False, presolve=False)
         if status is not SolveStatus.OPTIMAL:
             return (), f"shadow prices not available: fixed LP {status.value}"
+        # A tunnel minute is on its time row and on the link of each run fed (whose
+        # big-M is the span less the residence): with the binaries held, both move.
+        drain_pi: dict[tuple[str, str], float] = defaultdict(float)
+        for (t, _p, _ts, s), r in model.rows["tunnel_link"].items():
+            drain_pi[(t, s)] += float(r.pi or 0.0)
         out = []
         for kind, group in (("oven", "oven_time"), ("tunnel", "tunnel_time")):
             for (mc, s), r in model.rows[group].items():
-                out.append(ShadowPrice(mc, kind, s, -60.0 * float(r.pi or 0.0) + 0.0))
+                pi = float(r.pi or 0.0) + drain_pi.get((mc, s), 0.0)
+                out.append(ShadowPrice(mc, kind, s, -60.0 * pi + 0.0))
         return tuple(out), ""
     finally:
         _set_relaxed(model, False)
         for v, lo, hi in saved:
             v.lowBound, v.upBound = lo, hi
+
+
+def _value(v: pulp.LpVariable | None) -> float:
+    """A variable's value, 0 for a variable the model does not have."""
+    return 0.0 if v is None else float(v.varValue or 0.0)
 
 
 def _drop_idle(model: PlanModel) -> int:
@@ -536,7 +548,7 @@ def _drop_idle(model: PlanModel) -> int:
             continue
         load = model.loads[lk]
         need = max(
-            math.ceil((model.w[(lk, p, s)].varValue or 0.0) / kg - 1e-6) for p, kg in load.kg
+            math.ceil((_value(model.w.get((lk, p, s))) or 0.0) / kg - 1e-6) for p, kg in load.kg
         )
         if need < batches:
             nv.varValue = float(need)
@@ -553,6 +565,20 @@ def _drop_idle(model: PlanModel) -> int:
     for key, yv in model.y.items():
         if (yv.varValue or 0.0) > 0.5 and run_kg[key] <= 1e-9:
             yv.varValue = 0.0
+            changed += 1
+    # A residence level stays on only while a run at it or slower carries kg.
+    run_res: dict[tuple[str, str, str], float] = {}
+    for r in model.routes.values():
+        run_res[r.run] = min(run_res.get(r.run, math.inf), model.caps.residence[r.key])
+    slowest: dict[tuple[str, str], float] = {}
+    for (rk, s), xv in model.x.items():
+        r = model.routes[rk]
+        if (xv.varValue or 0.0) > 1e-9:
+            slowest[(r.tunnel, s)] = max(slowest.get((r.tunnel, s), 0.0), run_res[r.run])
+    for (t, li, s), uv in model.u.items():
+        need = model.u_level[(t, li, s)] <= slowest.get((t, s), -1.0) + 1e-9
+        if (uv.varValue or 0.0) > 0.5 and not need:
+            uv.varValue = 0.0
             changed += 1
     return changed
 
@@ -653,7 +679,6 @@ def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions,
     """
     tb = time.perf_counter()
     ovens = {o.name: o for o in inputs.ovens}
-    shifts = [s.name for s in inputs.shifts]
     loads = [*cand.singles, *cand.mixed_pool]
     by_oven: dict[str, dict[str, list]] = defaultdict(lambda: defaultdict(list))
     for ld in loads:
@@ -672,9 +697,10 @@ def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions,
             blocks[(o, os_)] = (lds, prods, kg, cyc, np.ceil(cyc - 1e-9))
     init: dict[tuple[str, str], list[ShiftPattern]] = defaultdict(list)
     lookup = {ld.key: ld for ld in loads}
+    caps = time_caps(inputs, cand)
     for s in inputs.shifts:
         for ld in cand.singles:
-            n = math.floor(s.available(ld.oven) / ld.cycle_min + 1e-9)
+            n = math.floor(caps.oven[(ld.oven, s.name)] / ld.cycle_min + 1e-9)
             if n >= 1:
                 init[(ld.oven, s.name)].append(
                     make_pattern(
@@ -719,7 +745,7 @@ def _solve_patterns(inputs: PlanInputs, cand: Candidates, options: SolveOptions,
                 keep = _pareto(cyc_g, values)
                 if keep.size:
                     items[os_] = [(float(cyc[i]), float(values[i]), lds[i].key) for i in keep]
-            avail_min = inputs.shifts[shifts.index(s)].available(o)
+            avail_min = model.cap(o, s)
             tries = [items] + ([{k: v} for k, v in sorted(items.items())] if len(items) > 1 else [])
             for its in tries:
                 counts = best_shift_pattern(its, avail_min, oven.changeover_min)
@@ -783,7 +809,7 @@ def _add_rounded_patterns(model: PlanModel, ovens: dict, lookup: dict) -> int:
         oven = ovens[o]
         counts = {lk: math.floor(x + 1e-9) for lk, x in frac.items()}
         pat = make_pattern(o, s, counts, lookup, oven.changeover_min)
-        left = model.available(o, s) - pat.minutes
+        left = model.cap(o, s) - pat.minutes
         settings = set(pat.settings)
         for lk in sorted(frac, key=lambda k: (-(frac[k] - counts[k]), k)):
             ld = lookup[lk]
@@ -795,7 +821,7 @@ def _add_rounded_patterns(model: PlanModel, ovens: dict, lookup: dict) -> int:
                 left -= ld.cycle_min
                 settings.add(ld.setting)
         pat = make_pattern(o, s, counts, lookup, oven.changeover_min)
-        if pat.minutes <= model.available(o, s) + 1e-9 and model.add_pattern(pat):
+        if pat.minutes <= model.cap(o, s) + 1e-9 and model.add_pattern(pat):
             added += 1
     return added
 
@@ -1032,7 +1058,7 @@ def _improve_by_shift_windows(
     variables = model.prob.variables()
     shifts = {s.name: i for i, s in enumerate(model.inputs.shifts)}
     shift_of: dict[str, int] = {}
-    for group in (model.n, model.w, model.x, model.z, model.y, model.f):
+    for group in (model.n, model.w, model.x, model.z, model.y, model.f, model.u):
         for key, v in group.items():
             shift_of[v.name] = shifts[key[-1]]
     cols = np.array([v.index for v in variables], dtype=np.int32)
