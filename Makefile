@@ -14,6 +14,13 @@ $(STAMP): pyproject.toml
 
 demo: $(STAMP)
 	$(VENV)/bin/corepace plan configs/demo.yaml --out reports/demo
+	$(VENV)/bin/corepace calibrate configs/demo.yaml configs/logs/trial-chicken-roast-180.csv \
+	  --product chicken-fillet --oven rack-oven-1 --setting roast-180 --fit-offset \
+	  --out reports/demo/calibration
+	$(VENV)/bin/corepace verify reports/demo/calibration/demo-calibrated.yaml \
+	  configs/logs/run-chicken-roast-180.csv \
+	  --product chicken-fillet --stage cook --oven rack-oven-1 --setting roast-180 \
+	  --out reports/demo/record
 
 # The committed sample report: regenerated from the demo so it cannot go stale
 # silently (SOURCE_DATE_EPOCH pins the report's timestamp).

@@ -149,8 +149,8 @@ CASES = [
         "unknown-field",
         _set("ovens/0/settings/0/speed", 3),
         "ovens[0].settings[0].speed: unknown field (did you mean 'air_speed'?); accepted "
-        "fields: air_temperature, air_speed, measured_h, relative_humidity, dew_point, "
-        "name, wall_temperature, emissivity",
+        "fields: air_temperature, air_speed, measured_h, measured_h_source, relative_humidity, "
+        "dew_point, name, wall_temperature, emissivity",
     ),
     (
         "missing-field",

@@ -19,6 +19,10 @@ Subcommands
     Several scenarios planned and put side by side.
 ``sweep STUDY``
     What-if study (:mod:`optimizer.studies.study`): one plan per point, purchases priced.
+``calibrate SCENARIO LOG``
+    Fit h to a trial run's probe log; write it as a scenario overlay.
+``verify SCENARIO LOG``
+    Check a logged run against the product's rule, probe by probe.
 ``schema``
     JSON Schema of scenario files, for editors that check YAML/JSON.
 
@@ -27,7 +31,8 @@ Exit codes
 0
     Done.
 1
-    No feasible plan; the shortfall diagnosis is printed.
+    No feasible plan; the shortfall diagnosis is printed. ``verify``: a probe
+    misses the rule (the record is written).
 2
     Bad input (scenario file, option): one line per problem on stderr, no
     traceback, nothing written.
@@ -49,7 +54,17 @@ import warnings
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 
-from optimizer.cli import capacity, compare, dwell, plan, schema, sweep, validate
+from optimizer.cli import (
+    calibrate,
+    capacity,
+    compare,
+    dwell,
+    plan,
+    schema,
+    sweep,
+    validate,
+    verify,
+)
 from optimizer.cli.common import (
     EXIT_BAD_INPUT,
     EXIT_INTERNAL,
@@ -75,12 +90,15 @@ examples:
   corepace capacity configs/demo.yaml --mix pork-sausage=2,ham-log=1
   corepace compare configs/demo.yaml other.yaml
   corepace sweep study.yaml --out reports/what-if
+  corepace calibrate configs/demo.yaml trial.csv --product chicken-fillet --oven rack-oven-1
+  corepace verify configs/demo.yaml run.csv --product chicken-fillet --stage cook --oven rack-oven-1
   corepace schema > scenario.schema.json
 
 every command: --help for its options; --quiet, --json; --out DIR where files are written.
 
-exit codes: 0 done, 1 no feasible plan (diagnosis printed), 2 bad input
-(one line per problem, nothing written), 3 internal error.
+exit codes: 0 done, 1 no feasible plan (diagnosis printed) or a verified run
+that misses its rule (record written), 2 bad input (one line per problem,
+nothing written), 3 internal error.
 """
 
 
@@ -99,7 +117,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
 
-    for command in (validate, dwell, plan, capacity, compare, sweep, schema):
+    for command in (validate, dwell, plan, capacity, compare, sweep, calibrate, verify, schema):
         command.add_parser(sub)
     return parser
 

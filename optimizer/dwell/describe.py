@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import pandas as pd
 
@@ -173,18 +174,25 @@ def methods_used(dwell: pd.DataFrame, scenario: Scenario) -> list[tuple[str, str
         if key in CORRELATIONS:
             entry = CORRELATIONS[key]
             methods.append((f"Surface coefficient: {entry.name}", entry.reference))
-    measured = any(
-        getattr(s, "measured_h", None) is not None
-        for unit in [*getattr(scenario, "ovens", []), *getattr(scenario, "tunnels", [])]
-        for s in getattr(unit, "settings", [])
-    )
-    if measured:
+    measured = [
+        (label, spec) for label, spec in _air_specs(scenario) if spec.measured_h is not None
+    ]
+    if any(spec.measured_h_source is None for _, spec in measured):
         methods.append(
             (
                 "Surface coefficient measured at the plant (air settings with measured_h)",
                 "the plant's own measurement, as entered in the scenario",
             )
         )
+    for label, spec in measured:
+        if spec.measured_h_source is not None:
+            methods.append(
+                (
+                    f"Surface coefficient measured at the plant: {label}, "
+                    f"{spec.measured_h:.4g} W/(m² K)",
+                    spec.measured_h_source,
+                )
+            )
     if "series" in used or not used:
         methods.append(
             (
@@ -221,3 +229,19 @@ def methods_used(dwell: pd.DataFrame, scenario: Scenario) -> list[tuple[str, str
         )
     )
     return methods
+
+
+def _air_specs(scenario: Scenario) -> list[tuple[str, Any]]:
+    """Every air description of a scenario with a label: oven settings, transfer stages, zones."""
+    out: list[tuple[str, Any]] = []
+    for oven in getattr(scenario, "ovens", []):
+        out += [(f"{oven.name} / {s.name}", s) for s in oven.settings]
+    for tunnel in getattr(scenario, "tunnels", []):
+        if tunnel.transfer is not None:
+            out.append((f"{tunnel.name} / transfer", tunnel.transfer))
+        for setting in tunnel.settings:
+            out += [
+                (f"{tunnel.name} / {setting.name} / {z.name or f'zone {i + 1}'}", z)
+                for i, z in enumerate(setting.zones)
+            ]
+    return out

@@ -271,6 +271,15 @@ class _AirMixin(_Model):
             "given instead of air_speed."
         ),
     )
+    measured_h_source: str | None = Field(
+        None,
+        max_length=1000,
+        description=(
+            "Where measured_h comes from, for the record (e.g. the probe-log calibration "
+            "that produced it: log file and its sha256, fit interval, date of the run); "
+            "only with measured_h."
+        ),
+    )
     relative_humidity: Fraction | None = Field(
         None,
         description=(
@@ -291,6 +300,8 @@ class _AirMixin(_Model):
                 f"dew_point: must be <= the air temperature ({_fmt(self.air_temperature)} °C), "
                 f"got {_fmt(self.dew_point)} °C"
             )
+        if self.measured_h_source is not None and self.measured_h is None:
+            raise _problem("measured_h_source: is only accepted with measured_h")
         if (self.air_speed is None) == (self.measured_h is None):
             raise _problem(
                 "give exactly one of air_speed (e.g. '2.5 m/s') or measured_h "
