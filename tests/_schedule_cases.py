@@ -46,8 +46,12 @@ def plant(
     back_to_back: bool = False,
     settings: tuple[str, ...] = ("s1",),
     tunnel_settings: tuple[str, ...] = ("c1",),
+    tunnels: tuple[str, ...] = ("tn",),
 ) -> PlanInputs:
-    """A plant of ovens feeding one tunnel ``tn`` (width 1 m, loading ``full`` = 100 %).
+    """A plant of ovens feeding the tunnels ``tunnels`` (default one, ``tn``).
+
+    Every tunnel has the same belt (width 1 m, loading ``full`` = 100 %);
+    a second or third tunnel is 1.5 or 2 times as long.
 
     ``products``: name -> (kg per tray, belt kg/m2); default one product
     ``a`` of 5 kg/tray at 10 kg/m2 (10 kg per metre of belt).
@@ -69,17 +73,20 @@ def plant(
         )
         for o in ovens
     )
-    tunnel = TunnelData(
-        name="tn",
-        length_m=length_m,
-        width_m=1.0,
-        min_speed_m_per_min=speeds[0],
-        max_speed_m_per_min=speeds[1],
-        settings=tunnel_settings,
-        loadings=(LoadingOption("full", 1.0),),
-        changeover_min=tunnel_changeover,
-        transfer_min=transfer,
-        hot_hold_min=hot_hold,
+    tuns = tuple(
+        TunnelData(
+            name=name,
+            length_m=length_m * (1.0 + 0.5 * i),
+            width_m=1.0,
+            min_speed_m_per_min=speeds[0],
+            max_speed_m_per_min=speeds[1],
+            settings=tunnel_settings,
+            loadings=(LoadingOption("full", 1.0),),
+            changeover_min=tunnel_changeover,
+            transfer_min=transfer,
+            hot_hold_min=hot_hold,
+        )
+        for i, name in enumerate(tunnels)
     )
     stops = stops or tuple(() for _ in shifts)
     shift_data = tuple(
@@ -88,7 +95,7 @@ def plant(
             minutes=m - sum(x.minutes for x in st if x.machine is None),
             machine_minutes={
                 mach: m - sum(x.minutes for x in st if x.applies_to(mach))
-                for mach in (*ovens, "tn")
+                for mach in (*ovens, *tunnels)
                 if any(x.machine == mach for x in st)
             },
             stops=st,
@@ -96,15 +103,16 @@ def plant(
         for i, (m, st) in enumerate(zip(shifts, stops, strict=True))
     )
     rows = [
-        dwell_row(p, o, s, "tn", ts, "full", 30.0, 1.0)
+        dwell_row(p, o, s, tn, ts, "full", 30.0, 1.0)
         for p in products
         for o in ovens
         for s in settings
+        for tn in tunnels
         for ts in tunnel_settings
     ]
     return PlanInputs(
         ovens=ovs,
-        tunnels=(tunnel,),
+        tunnels=tuns,
         products=prods,
         shifts=shift_data,
         orders=tuple(OrderData(product=p) for p in sorted(products)),
@@ -150,13 +158,14 @@ def run(
     kg: float,
     residence: float,
     tunnel_setting: str = "c1",
+    tunnel: str = "tn",
 ) -> TunnelRun:
-    """kg of a product through ``tn`` at the speed ``length / residence``."""
-    t = inputs.tunnels[0]
+    """kg of a product through ``tunnel`` at the speed ``length / residence``."""
+    t = next(x for x in inputs.tunnels if x.name == tunnel)
     speed = min(t.length_m / residence, t.max_speed_m_per_min)
     kg_per_m = inputs.product(product).belt_kg_per_m2 * t.width_m
     return TunnelRun(
-        tunnel="tn",
+        tunnel=tunnel,
         shift=shift,
         product=product,
         oven=oven,

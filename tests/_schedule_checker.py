@@ -293,6 +293,15 @@ def problems(inputs, result, schedule) -> list[str]:
                     f"{t.changeover_min:g} min changeover"
                 )
 
+    # ---- no more batches of a load than the plan has
+    count = defaultdict(int)
+    for sh in schedule.shifts:
+        for b in sh.batches:
+            count[(sh.shift, b.load)] += 1
+    for key, n in count.items():
+        if key in loads and n > loads[key].batches:
+            out.append(f"{key}: {n} batches scheduled, plan has {loads[key].batches}")
+
     # ---- kg balance: batch -> feed -> totals
     for b in by_id.values():
         for c in b.contents:

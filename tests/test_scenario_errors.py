@@ -284,6 +284,23 @@ CASES = [
         "shifts[1].stops: stops of 'chill-tunnel' (540 min) exceed its available minutes",
     ),
     (
+        "stop-start-past-shift",
+        _set("shifts/1/stops/0/start", "450 min"),
+        "shifts[1].stops[0].start: the stop ends at 495 min, after its machine's 480 min in "
+        "the shift",
+    ),
+    (
+        "fixed-stops-overlap",
+        _set(
+            "shifts/0/stops",
+            [
+                {"minutes": 30, "start": 0, "reason": "cleaning"},
+                {"minutes": 10, "machine": "rack-oven-1", "start": 20, "reason": "seal"},
+            ],
+        ),
+        "shifts[0].stops[1].start: overlaps another stop of 'rack-oven-1' (which ends at 30 min)",
+    ),
+    (
         "section-not-a-list",
         _set("shifts", {"name": "mon"}),
         "shifts: expected a list, got dict",

@@ -596,6 +596,15 @@ class PlanInputs:
                     raise PlanInputError(
                         f"shift {s.name!r}.stops: unknown machine {x.machine!r}; known: {machines}"
                     )
+            for x in s.stops:
+                if x.start is None:
+                    continue
+                for m in machines:
+                    if x.applies_to(m) and x.start + x.minutes > s.window(m) + 1e-9:
+                        raise PlanInputError(
+                            f"shift {s.name!r}.stops: a stop of {m!r} from {x.start:g} min "
+                            f"runs past its {s.window(m):g} min in the shift"
+                        )
         if not isinstance(self.objective, Objective):
             raise PlanInputError(
                 f"inputs.objective: must be an Objective ({[o.value for o in Objective]}), "

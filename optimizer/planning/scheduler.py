@@ -16,19 +16,26 @@ How it works
    by batch.
 2. Order. Each oven gets a list of its batches; the lists follow one order
    of the tunnel runs (product at a tunnel setting), so ovens that share a
-   tunnel feed the same run at about the same time. Several run orders are
-   tried (by residence, by kg, as planned, then swaps of neighbours while
-   they help) within a fixed number of trials (a work limit, not a time
-   limit), and the schedule placing the most value (kg for objectives
-   other than most value) is kept, ties to the earliest finish.
+   tunnel feed the same run at about the same time. Run orders tried: the
+   slowest residence first, the fastest first, as planned and by kg; each
+   in four modes (:data:`MODES`: the tunnel may or may not have to finish a
+   run before it starts the next; an oven runs its list in order or may
+   pick one of its next three different batches that feeds sooner); then
+   swaps of neighbouring runs in the best order while they help. At most
+   ``ScheduleOptions.trials`` simulations per shift (a work limit, not a
+   time limit); the one placing the most value (kg for objectives other
+   than most value) is kept, ties to the earliest feeds.
 3. Placement. Repeatedly, of the next batch of every oven, the one whose
    first feed can start earliest is placed (ties: earliest unload, then
-   plant order). A batch starts as soon as its oven is free (after a
+   plant order, then list position). A batch starts as soon as its oven is free (after a
    setting changeover and clear of stops), unless its product would wait
    longer than the hot-hold limit for a busy belt: then its start is
    delayed just enough. When even an idle belt cannot take the whole batch
    within the hot-hold window, the batch runs with the trays that fit and
-   the rest is unplaced (rule ``hot_hold``).
+   the rest is unplaced (rule ``hot_hold``); likewise when the belt could
+   not clear the whole batch by the shift end (rule ``shift_end``). A batch
+   that does not fit in its oven's minutes is unplaced (``oven_minutes``).
+   In a mixed batch the product of the run the tunnel is on goes first.
 4. Belt. Each tunnel is simulated exactly (:mod:`optimizer.planning.belt`):
    the belt runs at the slowest speed the pieces on it allow, so a speed-up
    waits until slower pieces have left. A change of tunnel air setting
@@ -149,6 +156,7 @@ class _Job:
     setting: str
     cook_min: float
     parts: tuple[_Part, ...]
+    cycle_min: float = 0.0
 
     @property
     def kg(self) -> float:
@@ -222,7 +230,11 @@ def _jobs(inputs: PlanInputs, result: PlanResult, shift: str) -> list[_Job]:
                     need -= take
                     parts.append(_part(products[product], tunnels[r.tunnel], r, take))
             if parts:
-                jobs.append(_Job(len(jobs), b.oven, b.load, b.setting, b.cook_min, tuple(parts)))
+                jobs.append(
+                    _Job(
+                        len(jobs), b.oven, b.load, b.setting, b.cook_min, tuple(parts), b.cycle_min
+                    )
+                )
     return jobs
 
 
@@ -311,7 +323,7 @@ class _Placed:
     belts: dict[str, Belt]
     runs: dict[str, tuple[str, str, str]]
     changes: tuple[tuple[str, float, float, str, str], ...]
-    cut: tuple[tuple[_Part, int, str], ...]  # trays not placed, with detail
+    cut: tuple[tuple[_Part, int, str, str], ...]  # trays not placed, rule, detail
 
 
 @dataclass(frozen=True)
@@ -382,8 +394,9 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
     """Where ``job`` goes next on ``oven``, given the tunnels' state, or why it cannot."""
     cycle = job.cook_min + oven.data.load_unload_min
     earliest = 0.0
-    cut: list[tuple[_Part, int, str]] = []
-    parts = list(job.parts)
+    cut: list[tuple[_Part, int, str, str]] = []
+    # the product of the run the tunnel is on goes first
+    parts = sorted(job.parts, key=lambda p: (p.run != tunnels[p.tunnel].run, p.run))
     for _ in range(200):
         start, co = _oven_start(oven, job, earliest)
         unload = start + cycle
@@ -413,7 +426,11 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
                 part.trays,
             )
             if isinstance(out, _Fail):
-                return out
+                fit = _trays_that_clear(tn, belts[part.tunnel], runs[part.tunnel], part, at)
+                cut.append((part, part.trays - fit, out.rule, out.detail))
+                parts[i] = replace(part, trays=fit)
+                retry = True
+                break
             new, f0, f1, tco = out
             slack = min(slack_of.get(part.tunnel, math.inf), f0 - (at + tn.data.transfer_min))
             slack_of[part.tunnel] = slack
@@ -423,12 +440,12 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
                     retry = True
                     break
                 fit = _trays_that_fit(tn, belts[part.tunnel], runs[part.tunnel], part, at)
-                if fit < part.trays:
-                    detail = _hot_hold_detail(tn, part, f1 - f0, fit)
-                    cut.append((part, part.trays - fit, detail))
-                    parts[i] = replace(part, trays=fit)
-                    retry = True
-                    break
+                fit = min(fit, part.trays - 1)
+                detail = _hot_hold_detail(tn, part, f1 - f0, fit)
+                cut.append((part, part.trays - fit, "hot_hold", detail))
+                parts[i] = replace(part, trays=fit)
+                retry = True
+                break
             if tco > 0:
                 changes.append(
                     (part.tunnel, f0 - tco, f0, _run_text(runs[part.tunnel]), _run_text(part.run))
@@ -439,7 +456,7 @@ def _try(job: _Job, oven: _Oven, tunnels: dict[str, _Tunnel]) -> _Placed | _Fail
         if retry:
             parts = [p for p in parts if p.trays > 0]
             if not parts:
-                return _Fail("hot_hold", cut[-1][2] if cut else "no tray fits the hot-hold window")
+                return _Fail(cut[-1][2], cut[-1][3])
             earliest = max(earliest, start + delay) if delay > 0 else earliest
             continue
         job2 = replace(job, parts=tuple(parts))
@@ -464,17 +481,38 @@ def _trays_that_fit(tn: _Tunnel, belt: Belt, run, part: _Part, at: float) -> int
     return lo
 
 
+def _trays_that_clear(tn: _Tunnel, belt: Belt, run, part: _Part, at: float) -> int:
+    """Most trays of ``part`` (fewer than all) the belt can take and clear in time."""
+    lo, hi = 0, part.trays - 1
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        out = _feed_part(tn, belt, run, part, at + tn.data.transfer_min, mid)
+        if not isinstance(out, _Fail):
+            lo = mid
+        else:
+            hi = mid - 1
+    return lo
+
+
 def _hot_hold_detail(tn: _Tunnel, part: _Part, feed_min: float, fit: int) -> str:
     window = part.hold - tn.data.transfer_min
+    speed = part.kg / part.kg_per_m / feed_min if feed_min > 0 else part.limit
+    slower = f" (slowed by product already on the belt; the route allows {part.limit:.3g})"
     return (
         f"{part.trays} trays of {part.product} take {feed_min:.1f} min to go onto "
-        f"{tn.data.name} at {part.limit:.3g} m/min, but only {window:.1f} min are left of the "
-        f"{part.hold:g} min hot-hold limit after the {tn.data.transfer_min:g} min transfer; "
-        f"{fit} trays per batch fit (fewer trays, a faster belt or a longer limit would)"
+        f"{tn.data.name} at {speed:.3g} m/min"
+        f"{slower if speed < part.limit * (1 - 1e-6) else ''}, but only {window:.1f} min "
+        f"are left of the {part.hold:g} min hot-hold limit after the "
+        f"{tn.data.transfer_min:g} min transfer: {part.trays - fit} trays "
+        f"({(part.trays - fit) * part.kg_per_tray:g} kg) over; {fit} trays per batch fit "
+        "(fewer trays, a faster belt or a longer limit would)"
     )
 
 
 # ------------------------------------------------------------------ one shift
+
+MODES: tuple[tuple[bool, int], ...] = ((False, 1), (True, 1), (False, 3), (True, 3))
+"""Search modes tried per run order: (tunnel finishes a run first, batches looked ahead)."""
 
 
 @dataclass(frozen=True)
@@ -540,6 +578,10 @@ def _weight(inputs: PlanInputs) -> dict[str, float]:
     return {p.name: 1.0 for p in inputs.products}
 
 
+def _tunnels_of(job: _Job) -> tuple[str, ...]:
+    return tuple(sorted({p.tunnel for p in job.parts}))
+
+
 def _simulate(
     inputs: PlanInputs,
     frame: _Frame,
@@ -547,8 +589,17 @@ def _simulate(
     belts: dict[str, Belt],
     runs: dict[str, tuple[str, str, str] | None],
     weight: dict[str, float],
+    grouped: dict[tuple[str, str, str], int] | None = None,
+    look: int = 1,
 ) -> _ShiftRun:
-    """Place ``jobs`` (each oven's in list order) in one shift."""
+    """Place ``jobs`` (each oven's in list order) in one shift.
+
+    Of the next batch of every oven, the one whose first feed starts earliest
+    goes next; with ``grouped`` (run -> rank) the lowest-ranked run goes first,
+    so the tunnel finishes one run before it starts the next. With ``look``
+    > 1 an oven may run one of its next ``look`` different batches out of
+    list order when that one feeds sooner.
+    """
     sh = frame.shift
     ovens = {
         o.name: _Oven(o, sh.window(o.name), [(a, b) for a, b, _ in frame.stops[o.name]])
@@ -570,28 +621,53 @@ def _simulate(
     rank = {o.name: i for i, o in enumerate(inputs.ovens)}
     placed: list[_Placed] = []
     failed: list[tuple[_Job, _Fail]] = []
+    cache: dict[int, tuple] = {}
     while True:
         best: tuple | None = None
         for name in pending:
-            while pending[name]:
-                out = _try(pending[name][0], ovens[name], tunnels)
-                if isinstance(out, _Fail):
-                    failed.append((pending[name].pop(0), out))
+            seen = set()
+            i = 0
+            while i < len(pending[name]) and len(seen) < look:
+                job = pending[name][i]
+                sig = (job.load, job.parts)
+                if sig in seen:
+                    i += 1
                     continue
-                key = (min(f[1] for f in out.feeds), out.unload, rank[name])
+                seen.add(sig)
+                # a batch's placement depends only on its oven and the tunnels it feeds
+                state = (ovens[name].free, ovens[name].setting)
+                used = tuple((tunnels[t].belt, tunnels[t].run) for t in _tunnels_of(job))
+                hit = cache.get(job.index)
+                if (
+                    hit is not None
+                    and hit[0] == state
+                    and all(a is b and r == q for (a, r), (b, q) in zip(hit[1], used, strict=True))
+                ):
+                    out = hit[2]
+                else:
+                    out = _try(job, ovens[name], tunnels)
+                    cache[job.index] = (state, used, out)
+                if isinstance(out, _Fail):
+                    failed.append((pending[name].pop(i), out))
+                    seen.discard(sig)
+                    continue
+                key = (min(f[1] for f in out.feeds), out.unload, rank[name], i)
+                if grouped is not None:
+                    first = min(grouped.get(p.run, len(grouped)) for p in out.job.parts)
+                    key = (first, *key)
                 if best is None or key < best[0]:
-                    best = (key, name, out)
-                break
+                    best = (key, name, out, i)
+                i += 1
         if best is None:
             break
-        _, name, out = best
-        pending[name].pop(0)
+        _, name, out, i = best
+        pending[name].pop(i)
         oven = ovens[name]
         oven.free = out.unload
         oven.setting = out.job.setting
-        for k, tn in tunnels.items():
-            tn.belt = out.belts[k]
-            tn.run = out.runs[k]
+        for k in _tunnels_of(out.job):
+            tunnels[k].belt = out.belts[k]
+            tunnels[k].run = out.runs[k]
         placed.append(out)
     kg = sum(p.kg * weight.get(p.product, 1.0) for x in placed for p in x.job.parts)
     finish = sum(f[2] for x in placed for f in x.feeds)
@@ -623,8 +699,18 @@ def _orders(jobs: list[_Job]) -> list[list[tuple[str, str, str]]]:
 
 
 def _ordered(jobs: list[_Job], runs: list[tuple[str, str, str]]) -> list[_Job]:
+    """Jobs by run order, oven setting, then most kg per oven minute first."""
     rank = {r: i for i, r in enumerate(runs)}
-    return sorted(jobs, key=lambda j: (rank[j.parts[0].run], j.setting, j.load, j.index))
+    return sorted(
+        jobs,
+        key=lambda j: (
+            rank[j.parts[0].run],
+            j.setting,
+            -j.kg / j.cycle_min if j.cycle_min > 0 else 0.0,
+            j.load,
+            j.index,
+        ),
+    )
 
 
 def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _ShiftRun:
@@ -633,21 +719,24 @@ def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _Shift
         return _simulate(inputs, frame, [], belts, runs, weight)
     tried: dict[tuple, _ShiftRun] = {}
 
-    def run(order: list) -> _ShiftRun:
-        key = tuple(order)
+    def run(mode: tuple[bool, int], order: list) -> _ShiftRun:
+        key = (mode, *order)
         if key not in tried:
-            tried[key] = _simulate(inputs, frame, _ordered(jobs, order), belts, runs, weight)
+            rank = {r: i for i, r in enumerate(order)} if mode[0] else None
+            tried[key] = _simulate(
+                inputs, frame, _ordered(jobs, order), belts, runs, weight, rank, mode[1]
+            )
         return tried[key]
 
-    cands = _orders(jobs)
-    best_order = cands[0]
-    best = run(best_order)
-    for c in cands[1:]:
+    cands = [(m, c) for c in _orders(jobs) for m in MODES]
+    best_mode, best_order = cands[0]
+    best = run(best_mode, best_order)
+    for g, c in cands[1:]:
         if len(tried) >= trials:
             break
-        r = run(c)
+        r = run(g, c)
         if r.score > best.score:
-            best, best_order = r, c
+            best, best_mode, best_order = r, g, c
     improved = True
     while improved and len(tried) < trials:
         improved = False
@@ -656,9 +745,9 @@ def _best_shift(inputs, frame, jobs, belts, runs, weight, trials: int) -> _Shift
                 break
             c = list(best_order)
             c[i], c[i + 1] = c[i + 1], c[i]
-            if tuple(c) in tried:
+            if (best_mode, *c) in tried:
                 continue
-            r = run(c)
+            r = run(best_mode, c)
             if r.score > best.score:
                 best, best_order, improved = r, c, True
     return best
@@ -907,8 +996,8 @@ def _unplaced(shift: str, run: _ShiftRun) -> tuple[Unplaced, ...]:
         k = (job.oven, job.load, fail.rule)
         agg.setdefault(k, [0.0, fail.detail])[0] += job.kg
     for x in run.placed:
-        for part, trays, detail in x.cut:
-            k = (x.job.oven, x.job.load, "hot_hold")
+        for part, trays, rule, detail in x.cut:
+            k = (x.job.oven, x.job.load, rule)
             agg.setdefault(k, [0.0, detail])[0] += trays * part.kg_per_tray
     return tuple(
         Unplaced(shift, oven, load, kg, rule, detail)
