@@ -185,6 +185,13 @@ def test_loading_factor_is_the_coverage_estimate_unless_calibrated_or_measured()
     m_tunnel = measured.tunnels[0]
     # a setting of measured zones only: h taken as measured on the loaded belt
     assert convert.loading_factor(m_tunnel.loadings[0], m_tunnel.settings[0]) == 1.0
+    # ... and the register says so, per loading, with the settings concerned
+    listed = [a for a in reg.assumptions(measured) if a.topic == "loading factor"]
+    assert [a.applies_to for a in listed] == [
+        "chill-tunnel / full (chill-0, chill-minus-8)",
+        "chill-tunnel / spaced (chill-0, chill-minus-8)",
+    ]
+    assert all(a.value.startswith("1: the measured_h") for a in listed)
     _give_h_factor(data)
     calibrated = scenario_from_dict(data).tunnels[0]
     assert convert.loading_factor(calibrated.loadings[0], calibrated.settings[0]) == 0.7

@@ -139,34 +139,59 @@ def _names(items: Sequence[str]) -> str:
 def _loading(scenario: Scenario) -> list[Assumption]:
     out = []
     for i, tunnel in enumerate(scenario.tunnels):
-        measured = any(z.measured_h is not None for s in tunnel.settings for z in s.zones)
+        measured = [
+            s.name for s in tunnel.settings if all(z.measured_h is not None for z in s.zones)
+        ]
+        mixed = [
+            s.name
+            for s in tunnel.settings
+            if s.name not in measured and any(z.measured_h is not None for z in s.zones)
+        ]
+        estimated = len(measured) < len(tunnel.settings)
         for j, loading in enumerate(tunnel.loadings):
             if loading.h_factor is not None:
                 continue
-            factor = coverage_loading_factor(loading.coverage)
-            note = (
-                "No calibrated h_factor: the loaded-belt h is estimated from the coverage "
-                "(1 - 0.5 x coverage), not measured; a belt that shades its pieces more gives "
-                "a slower chill than planned. Calibrate h_factor from probe logs of this "
-                "loading."
-            )
+            field = f"tunnels[{i}].loadings[{j}].h_factor"
+            subject = f"{tunnel.name} / {loading.name}"
+            if estimated:
+                factor = coverage_loading_factor(loading.coverage)
+                note = (
+                    "No calibrated h_factor: the loaded-belt h is estimated from the coverage "
+                    "(1 - 0.5 x coverage), not measured; a belt that shades its pieces more "
+                    "gives a slower chill than planned. Calibrate h_factor from probe logs of "
+                    "this loading."
+                )
+                if mixed:
+                    note += (
+                        f" It also multiplies the measured_h zones of {', '.join(mixed)}: "
+                        "give h_factor 1 if that h was measured on this loading."
+                    )
+                out.append(
+                    Assumption(
+                        "loading factor",
+                        subject,
+                        field,
+                        f"{factor:.2f} x a lone piece's convective h "
+                        f"(estimated from {_pct(loading.coverage)} coverage)",
+                        "default",
+                        "shorter",
+                        note,
+                    )
+                )
             if measured:
-                note += (
-                    " The factor also multiplies the zones' measured_h: give h_factor 1 if "
-                    "that h was measured on this loading."
+                out.append(
+                    Assumption(
+                        "loading factor",
+                        f"{subject} ({', '.join(measured)})",
+                        field,
+                        f"1: the measured_h taken as measured on this loading "
+                        f"({_pct(loading.coverage)} coverage)",
+                        "default",
+                        "shorter",
+                        "If the h was measured on a lone piece or an emptier belt, this "
+                        "loading cools more slowly than planned: give h_factor.",
+                    )
                 )
-            out.append(
-                Assumption(
-                    "loading factor",
-                    f"{tunnel.name} / {loading.name}",
-                    f"tunnels[{i}].loadings[{j}].h_factor",
-                    f"{factor:.2f} x a lone piece's convective h "
-                    f"(estimated from {_pct(loading.coverage)} coverage)",
-                    "default",
-                    "shorter",
-                    note,
-                )
-            )
     return out
 
 

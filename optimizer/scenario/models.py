@@ -489,9 +489,10 @@ class LoadingOption(_Model):
         None,
         description=(
             "Factor on the surface coefficient h for this loading [-], calibrated from "
-            "probe logs of the loaded belt (it also multiplies a zone's measured_h: give 1 "
-            "if that was measured on this loading); default: estimated from the coverage "
-            "as 1 - 0.5 x coverage (thermal.convection.coverage_loading_factor), an "
+            "probe logs of the loaded belt (it also multiplies a zone's measured_h); "
+            "default: 1 in a tunnel setting whose zones all give measured_h (taken as "
+            "measured on this loading), else estimated from the coverage as 1 - 0.5 x "
+            "coverage (thermal.convection.coverage_loading_factor); either default is an "
             "assumption listed in every report."
         ),
     )
