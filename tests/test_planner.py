@@ -212,7 +212,7 @@ def test_column_generation_stays_between_singles_and_the_full_pool():
     }
     orders = [OrderData(p, max_kg=300.0 + 50 * i) for i, p in enumerate(prods)]
     inp = one_line(products=prods, orders=orders, n_shifts=2)
-    opts = dict(shadow_prices=False, time_limit_s=4.0, gap_rel=1e-6)
+    opts = dict(shadow_prices=False, time_limit_s=60.0, gap_rel=1e-6)
     single = plan_buckets(inp, SolveOptions(max_mix_products=1, **opts))
     full = plan_buckets(inp, SolveOptions(column_generation=False, **opts))
     cg = plan_buckets(inp, SolveOptions(column_generation=True, **opts))

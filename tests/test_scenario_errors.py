@@ -377,6 +377,10 @@ def test_command_line_exits_2_and_writes_nothing(
     monkeypatch.chdir(work)
     monkeypatch.setenv("XDG_CACHE_HOME", str(work / "xdg-cache"))
     monkeypatch.setenv("HOME", str(work / "home"))
+    # matplotlib's own font cache, made on its first import in a fresh process, is the
+    # library's and not corepace output: kept outside `work` so the check below does
+    # not depend on which test imported matplotlib first
+    monkeypatch.setenv("MPLCONFIGDIR", str(tmp_path / "mpl"))
     out, cache = work / "out", work / "cache"
     code = main([command, "bad.yaml", "--out", str(out), "--cache-dir", str(cache)])
     captured = capsys.readouterr()
