@@ -82,8 +82,10 @@ def test_duplicate_orders_are_refused(capsys, tmp_path):
     data["orders"].append(dict(data["orders"][1]))
     lines = refused(capsys, tmp_path, yaml.safe_dump(data))
     n = len(data["orders"])
+    first = data["orders"][0]
     assert lines == [
-        f"orders[{n - 2}]: the same product 'chicken-fillet' with due_shift 'mon-late' as "
+        f"orders[{n - 2}]: the same product '{first['product']}' with due_shift "
+        f"'{first['due_shift']}' as "
         "orders[0]; give one order per product and due shift (merge their min_kg and max_kg)",
         f"orders[{n - 1}]: the same product 'pork-sausage' with no due_shift as orders[1]; "
         "give one order per product and due shift (merge their min_kg and max_kg)",
@@ -92,7 +94,9 @@ def test_duplicate_orders_are_refused(capsys, tmp_path):
 
 def test_same_product_due_in_two_shifts_is_accepted(capsys, tmp_path):
     data = demo_data()
-    data["orders"].append(dict(data["orders"][0], due_shift="tue-early"))
+    first = data["orders"][0]
+    other = next(s["name"] for s in data["shifts"] if s["name"] != first.get("due_shift"))
+    data["orders"].append(dict(first, due_shift=other))
     path = tmp_path / "case.yaml"
     path.write_text(yaml.safe_dump(data), encoding="utf-8")
     code, out, err = run(capsys, "validate", path)
